@@ -1,0 +1,3 @@
+module parch
+
+go 1.26.0
