@@ -70,8 +70,8 @@ type Event struct {
 }
 
 // Bool and Float return pointers for the optional fields.
-func Bool(b bool) *bool          { return &b }
-func Float(f float64) *float64   { return &f }
+func Bool(b bool) *bool        { return &b }
+func Float(f float64) *float64 { return &f }
 func fmtTime(b []byte, t time.Time) []byte {
 	return t.UTC().AppendFormat(b, "2006-01-02T15:04:05.000Z07:00")
 }

@@ -193,7 +193,7 @@ func (d *Decoder) Scan(r io.Reader, name string, fn func(e *Event, fast *FastRea
 		complete := line[len(line)-1] == '\n'
 		body := bytes.TrimRight(line, "\r\n")
 		if lineNo == 1 {
-			if err := checkHeaderLine(name, body); err != nil {
+			if err := CheckHeaderLine(name, body); err != nil {
 				return err
 			}
 		}
@@ -216,6 +216,9 @@ func (d *Decoder) Scan(r io.Reader, name string, fn func(e *Event, fast *FastRea
 		}
 	}
 }
+
+// DecodeLine decodes one log line (without its newline) with encoding/json.
+func DecodeLine(b []byte) (*Event, error) { return decodeEvent(b) }
 
 // decodeEvent is the general path.
 func decodeEvent(b []byte) (*Event, error) {
@@ -441,4 +444,34 @@ func daysFromCivil(y, m, d int) int64 {
 	doy := (153*mp+2)/5 + d - 1
 	doe := yoe*365 + yoe/4 - yoe/100 + doy
 	return int64(era)*146097 + int64(doe) - 719468
+}
+
+// LastReadingTime finds the time of the newest reading in the log by
+// reading its tail, so a note from another terminal can be stamped with the
+// reading it refers to without reading a long log whole.
+func LastReadingTime(path string) (time.Time, bool) {
+	f, err := os.Open(path)
+	if err != nil {
+		return time.Time{}, false
+	}
+	defer f.Close()
+	st, err := f.Stat()
+	if err != nil {
+		return time.Time{}, false
+	}
+	const window = 256 << 10
+	off := max(st.Size()-window, 0)
+	buf := make([]byte, st.Size()-off)
+	n, _ := f.ReadAt(buf, off)
+	lines := bytes.Split(buf[:n], []byte("\n"))
+	for i := len(lines) - 1; i >= 0; i-- {
+		l := lines[i]
+		if !bytes.HasPrefix(l, []byte(`{"type":"reading"`)) {
+			continue
+		}
+		if e, err := decodeEvent(l); err == nil {
+			return e.T, true
+		}
+	}
+	return time.Time{}, false
 }

@@ -258,10 +258,12 @@ func CheckHeader(path string) error {
 	if err != nil && err != io.EOF && !errors.Is(err, bufio.ErrBufferFull) {
 		return fmt.Errorf("read session log %s: %w", path, err)
 	}
-	return checkHeaderLine(path, line)
+	return CheckHeaderLine(path, line)
 }
 
-func checkHeaderLine(path string, line []byte) error {
+// CheckHeaderLine checks that line is a parch session header; path names
+// the file in the error.
+func CheckHeaderLine(path string, line []byte) error {
 	var h struct {
 		Type   string `json:"type"`
 		Format string `json:"format"`

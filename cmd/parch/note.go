@@ -1,0 +1,73 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"regexp"
+	"strings"
+	"time"
+
+	"parch/internal/session"
+)
+
+// noteKinds are the checks of the trade, offered first; any other kind in
+// lower case with underscores is accepted too.
+var noteKinds = []struct{ kind, help string }{
+	{"note", "free text"},
+	{"bend_test_passed", "a piece bends without breaking and shows no free moisture"},
+	{"bend_test_failed", "not dry yet"},
+	{"case_hardening", "a hard, dry shell over a moist inside"},
+	{"piece_removed", "a piece taken out (give its grams with --value)"},
+	{"door_opened", "the dryer door was opened"},
+	{"setpoint_changed", "the air temperature setpoint changed (new value with --value, °C)"},
+}
+
+var kindPattern = regexp.MustCompile(`^[a-z][a-z0-9_]*$`)
+
+func runNote(args []string, stdout, stderr io.Writer) error {
+	var kinds strings.Builder
+	for _, k := range noteKinds {
+		fmt.Fprintf(&kinds, "\n    %-17s %s", k.kind, k.help)
+	}
+	fs := newFlagSet("note", "note --session FILE [--kind KIND] [--value N] TEXT...\n\nKinds:"+kinds.String(), stderr)
+	path := fs.String("session", "", "session log `FILE` to add the note to (required)")
+	kind := fs.String("kind", "note", "what kind of note (see the list above)")
+	value := fs.String("value", "", "a number that goes with the note: grams removed, new setpoint °C...")
+	pos, err := parseFlags(fs, args)
+	if err != nil {
+		return err
+	}
+	if *path == "" {
+		return usagef("--session FILE is required: the session log being recorded")
+	}
+	if !kindPattern.MatchString(*kind) {
+		return usagef("--kind %q: expected lower-case words joined by underscores, e.g. bend_test_passed", *kind)
+	}
+	text := strings.TrimSpace(strings.Join(pos, " "))
+	e := session.Event{Type: session.TypeNote, T: time.Now(), Kind: *kind, Text: text}
+	if *value != "" {
+		var v float64
+		if _, err := fmt.Sscanf(*value, "%g", &v); err != nil {
+			return usagef("--value %q: expected a number", *value)
+		}
+		e.Value = &v
+	}
+	if *kind == "piece_removed" && e.Value == nil {
+		return usagef("--kind piece_removed needs --value GRAMS: the mass of the piece taken out")
+	}
+	if text == "" && e.Value == nil && *kind == "note" {
+		return usagef("nothing to note: give the text, e.g. parch note --session %s 'skins wrinkling'", *path)
+	}
+	if t, ok := session.LastReadingTime(*path); ok {
+		e.ReadingT = t
+	}
+	if err := session.AppendOnce(*path, &e); err != nil {
+		return err
+	}
+	when := "no reading yet"
+	if !e.ReadingT.IsZero() {
+		when = "latest reading " + e.ReadingT.Local().Format("15:04:05")
+	}
+	fmt.Fprintf(stdout, "noted %s in %s (%s)\n", *kind, *path, when)
+	return nil
+}

@@ -1,0 +1,88 @@
+package main
+
+import (
+	"bufio"
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"io/fs"
+	"os"
+	"os/signal"
+	"syscall"
+	"time"
+
+	"parch/internal/simulate"
+)
+
+func runSimulate(args []string, stdout, stderr io.Writer) error {
+	fset := newFlagSet("simulate", "simulate [--out FILE.csv] [--seed N] [--speed X]", stderr)
+	out := fset.String("out", "", "CSV `FILE` to write (default: standard output); never overwritten")
+	seed := fset.Uint64("seed", 1, "random seed (the same seed gives the same run)")
+	speed := fset.Float64("speed", 0, "write rows as the run goes, this many simulated seconds per real second (0: all at once)")
+	pos, err := parseFlags(fset, args)
+	if err != nil {
+		return err
+	}
+	if len(pos) > 0 {
+		return usagef("unexpected argument %q (the file goes after --out)", pos[0])
+	}
+	if *speed < 0 {
+		return usagef("--speed %v: expected 0 or a positive number", *speed)
+	}
+	sc := simulate.AppleRings()
+	m, err := simulate.NewModel(sc)
+	if err != nil {
+		return err
+	}
+	w := stdout
+	if *out != "" {
+		f, err := os.OpenFile(*out, os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o644)
+		if errors.Is(err, fs.ErrExist) {
+			return fmt.Errorf("%s already exists; parch does not overwrite it (choose another --out)", *out)
+		}
+		if err != nil {
+			return err
+		}
+		defer f.Close()
+		w = f
+	}
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
+	bw := bufio.NewWriter(w)
+	fmt.Fprintf(bw, "elapsed_s,mass_g,stable,air_temp_c\n")
+	began := time.Now()
+	var werr error
+	m.Run(*seed, func(s simulate.Sample) bool {
+		st := 0
+		if s.Stable {
+			st = 1
+		}
+		if _, werr = fmt.Fprintf(bw, "%g,%.2f,%d,%.1f\n", s.ElapsedS, s.MassG, st, s.AirTempC); werr != nil {
+			return false
+		}
+		if *speed > 0 {
+			if werr = bw.Flush(); werr != nil {
+				return false
+			}
+			due := began.Add(time.Duration(s.ElapsedS / *speed * float64(time.Second)))
+			select {
+			case <-time.After(time.Until(due)):
+			case <-ctx.Done():
+				return false
+			}
+		}
+		return true
+	})
+	if werr == nil {
+		werr = bw.Flush()
+	}
+	if werr != nil {
+		return fmt.Errorf("write %s: %w", *out, werr)
+	}
+	if *out != "" {
+		fmt.Fprintf(stderr, "wrote %s: %s; dry mass %.2f g, constant-rate period ends at %.2f h (invented)\n",
+			*out, sc.Name, m.DryMassG(), m.ConstantRateEndH())
+	}
+	return nil
+}

@@ -1,0 +1,366 @@
+package ingest
+
+import (
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+	"time"
+)
+
+// TableOptions override what is guessed from a CSV/TSV header.
+type TableOptions struct {
+	TimeCol  string        // column name (or 1-based number) of the time
+	MassCol  string        // column name (or 1-based number) of the mass
+	TimeUnit time.Duration // unit of an elapsed-time column with none in its header
+}
+
+// Table reads the rows of a CSV or TSV file written by a logger or a
+// spreadsheet: a header row, a time column (RFC 3339 timestamps, or elapsed
+// time with its unit in the header: elapsed_s, time (min), t [h]), a mass
+// column with its unit (mass_g, weight (kg)), and other numeric columns kept
+// as named channels.
+type Table struct {
+	Header    []string
+	Delim     byte
+	TimeIdx   int
+	MassIdx   int
+	Elapsed   bool          // the time column is elapsed time, not clock time
+	TimeUnit  time.Duration // for elapsed time
+	MassUnit  Unit
+	StableIdx int // a column saying whether the balance had settled; -1 if none
+	Channels  []Channel
+	comma     bool // decimal comma allowed in numbers (; or tab delimited)
+}
+
+// Channel is a numeric column kept beside the mass.
+type Channel struct {
+	Idx  int
+	Name string // cleaned: "air temp (°C)" -> "air_temp_c"
+}
+
+// Row is one decoded data row.
+type Row struct {
+	Time     time.Time // clock time, when the column holds one
+	Elapsed  time.Duration
+	MassG    float64
+	Stable   Stability
+	Channels map[string]float64
+}
+
+// NewTable interprets a header line. The error names the header and says
+// what was expected.
+func NewTable(header string, opt TableOptions) (*Table, error) {
+	header = strings.TrimPrefix(strings.TrimRight(header, "\r\n"), "\ufeff")
+	tb := &Table{Delim: sniffDelim(header), TimeIdx: -1, MassIdx: -1, StableIdx: -1}
+	tb.comma = tb.Delim != ','
+	tb.Header = splitRow(header, tb.Delim)
+	if len(tb.Header) < 2 {
+		return nil, fmt.Errorf("header %q: expected at least a time and a mass column separated by commas, semicolons or tabs", header)
+	}
+	var err error
+	if tb.TimeIdx, err = pickColumn(tb.Header, opt.TimeCol, isTimeName, "time"); err != nil {
+		return nil, fmt.Errorf("header %q: %w", header, err)
+	}
+	if tb.MassIdx, err = pickColumn(tb.Header, opt.MassCol, isMassName, "mass"); err != nil {
+		return nil, fmt.Errorf("header %q: %w", header, err)
+	}
+	if tb.TimeIdx == tb.MassIdx {
+		return nil, fmt.Errorf("header %q: time and mass cannot be the same column", header)
+	}
+	_, tunit := splitUnit(tb.Header[tb.TimeIdx])
+	tb.TimeUnit = opt.TimeUnit
+	if tb.TimeUnit == 0 && tunit != "" {
+		d, ok := timeUnits[tunit]
+		if !ok {
+			return nil, fmt.Errorf("header %q: time column %q has unit %q; expected s, min, h, ms or d (or --time-unit)", header, tb.Header[tb.TimeIdx], tunit)
+		}
+		tb.TimeUnit = d
+	}
+	_, munit := splitUnit(tb.Header[tb.MassIdx])
+	tb.MassUnit = Gram
+	if munit != "" {
+		u, ok := lookupUnit(munit)
+		if !ok {
+			return nil, fmt.Errorf("header %q: mass column %q has unit %q; expected mg, g, kg, oz or lb", header, tb.Header[tb.MassIdx], munit)
+		}
+		tb.MassUnit = u
+	}
+	for i, h := range tb.Header {
+		if i == tb.TimeIdx || i == tb.MassIdx || strings.TrimSpace(h) == "" {
+			continue
+		}
+		if base, _ := splitUnit(h); base == "stable" || base == "stability" || base == "settled" {
+			tb.StableIdx = i
+			continue
+		}
+		{
+			tb.Channels = append(tb.Channels, Channel{Idx: i, Name: CleanName(h)})
+		}
+	}
+	return tb, nil
+}
+
+// Decode reads one data row. The time column decides, on the first row,
+// whether times are clock times or elapsed times.
+func (tb *Table) Decode(line string) (Row, error) {
+	f := splitRow(strings.TrimRight(line, "\r\n"), tb.Delim)
+	if len(f) <= max(tb.TimeIdx, tb.MassIdx) {
+		return Row{}, fmt.Errorf("row has %d fields, expected at least %d as in the header", len(f), max(tb.TimeIdx, tb.MassIdx)+1)
+	}
+	var r Row
+	ts := strings.TrimSpace(f[tb.TimeIdx])
+	if t, ok := parseClock(ts); ok {
+		r.Time = t
+	} else if d, ok := parseHMS(ts); ok {
+		r.Elapsed = d
+		tb.Elapsed = true
+	} else if v, ok := tb.number(ts); ok {
+		if tb.TimeUnit == 0 {
+			return Row{}, fmt.Errorf("time %q has no unit: name the column like elapsed_s, time (min) or t [h], or pass --time-unit", ts)
+		}
+		r.Elapsed = time.Duration(v * float64(tb.TimeUnit))
+		tb.Elapsed = true
+	} else {
+		return Row{}, fmt.Errorf("time %q in column %q is neither an RFC 3339 time nor a number", clipRaw(ts), tb.Header[tb.TimeIdx])
+	}
+	ms := strings.TrimSpace(f[tb.MassIdx])
+	v, ok := tb.number(ms)
+	if !ok {
+		return Row{}, fmt.Errorf("mass %q in column %q is not a number", clipRaw(ms), tb.Header[tb.MassIdx])
+	}
+	r.MassG = v * float64(tb.MassUnit)
+	if tb.StableIdx >= 0 && tb.StableIdx < len(f) {
+		switch strings.ToLower(strings.TrimSpace(f[tb.StableIdx])) {
+		case "1", "true", "yes", "y", "s", "st", "stable":
+			r.Stable = Stable
+		case "0", "false", "no", "n", "u", "us", "unstable":
+			r.Stable = Unstable
+		}
+	}
+	for _, c := range tb.Channels {
+		if c.Idx >= len(f) {
+			continue
+		}
+		if v, ok := tb.number(strings.TrimSpace(f[c.Idx])); ok {
+			if r.Channels == nil {
+				r.Channels = make(map[string]float64, len(tb.Channels))
+			}
+			r.Channels[c.Name] = v
+		}
+	}
+	return r, nil
+}
+
+func (tb *Table) number(s string) (float64, bool) {
+	if s == "" {
+		return 0, false
+	}
+	if tb.comma && strings.IndexByte(s, ',') >= 0 && strings.IndexByte(s, '.') < 0 {
+		s = strings.Replace(s, ",", ".", 1)
+	}
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+		return 0, false
+	}
+	return v, true
+}
+
+func sniffDelim(header string) byte {
+	best, n := byte(','), 0
+	for _, d := range []byte{'\t', ';', ','} {
+		if c := strings.Count(header, string(d)); c > n {
+			best, n = d, c
+		}
+	}
+	return best
+}
+
+// splitRow splits on delim, honouring double quotes (RFC 4180) within a line.
+func splitRow(line string, delim byte) []string {
+	var out []string
+	var b strings.Builder
+	inQ := false
+	for i := 0; i < len(line); i++ {
+		c := line[i]
+		switch {
+		case c == '"' && inQ && i+1 < len(line) && line[i+1] == '"':
+			b.WriteByte('"')
+			i++
+		case c == '"':
+			inQ = !inQ
+		case c == delim && !inQ:
+			out = append(out, b.String())
+			b.Reset()
+		default:
+			b.WriteByte(c)
+		}
+	}
+	return append(out, b.String())
+}
+
+// splitUnit splits "mass_g", "weight (kg)", "t [h]", "time/min" into a base
+// name and a unit, both lower case.
+func splitUnit(h string) (base, unit string) {
+	h = strings.ToLower(strings.TrimSpace(h))
+	for _, p := range [][2]string{{"(", ")"}, {"[", "]"}} {
+		if i := strings.LastIndex(h, p[0]); i > 0 && strings.HasSuffix(h, p[1]) {
+			return strings.TrimSpace(h[:i]), strings.TrimSpace(h[i+1 : len(h)-1])
+		}
+	}
+	if i := strings.LastIndex(h, "/"); i > 0 {
+		return strings.TrimSpace(h[:i]), strings.TrimSpace(h[i+1:])
+	}
+	if i := strings.LastIndex(h, " in "); i > 0 {
+		return strings.TrimSpace(h[:i]), strings.TrimSpace(h[i+4:])
+	}
+	if i := strings.LastIndexAny(h, "_ "); i > 0 {
+		u := h[i+1:]
+		if _, ok := timeUnits[u]; ok {
+			return h[:i], u
+		}
+		if _, ok := lookupUnit(u); ok {
+			return h[:i], u
+		}
+	}
+	return h, ""
+}
+
+var timeUnits = map[string]time.Duration{
+	"ms": time.Millisecond,
+	"s":  time.Second, "sec": time.Second, "secs": time.Second, "second": time.Second, "seconds": time.Second,
+	"min": time.Minute, "mins": time.Minute, "minute": time.Minute, "minutes": time.Minute,
+	"h": time.Hour, "hr": time.Hour, "hrs": time.Hour, "hour": time.Hour, "hours": time.Hour,
+	"d": 24 * time.Hour, "day": 24 * time.Hour, "days": 24 * time.Hour,
+}
+
+// ParseTimeUnit reads a --time-unit value.
+func ParseTimeUnit(s string) (time.Duration, error) {
+	if d, ok := timeUnits[strings.ToLower(strings.TrimSpace(s))]; ok {
+		return d, nil
+	}
+	return 0, fmt.Errorf("time unit %q: expected s, min, h, ms or d", s)
+}
+
+func isTimeName(base string) int {
+	switch base {
+	case "time", "t", "elapsed", "elapsed time", "elapsed_time", "timestamp", "datetime", "date_time", "date time", "clock":
+		return 2
+	}
+	if strings.HasPrefix(base, "time") || strings.HasPrefix(base, "elapsed") {
+		return 1
+	}
+	return 0
+}
+
+func isMassName(base string) int {
+	switch base {
+	case "mass", "weight", "m", "w", "wt", "net", "net weight", "net_weight", "sample mass", "sample_mass", "reading":
+		return 2
+	}
+	if strings.HasPrefix(base, "mass") || strings.HasPrefix(base, "weight") {
+		return 1
+	}
+	return 0
+}
+
+// pickColumn finds a column by the user's choice (name or 1-based number)
+// or by the best-scoring name.
+func pickColumn(header []string, want string, score func(string) int, what string) (int, error) {
+	if want != "" {
+		for i, h := range header {
+			if strings.EqualFold(strings.TrimSpace(h), strings.TrimSpace(want)) {
+				return i, nil
+			}
+		}
+		if n, err := strconv.Atoi(want); err == nil && n >= 1 && n <= len(header) {
+			return n - 1, nil
+		}
+		return -1, fmt.Errorf("no %s column %q; columns are %s", what, want, quoteList(header))
+	}
+	best, bestScore := -1, 0
+	for i, h := range header {
+		base, _ := splitUnit(h)
+		if s := score(base); s > bestScore {
+			best, bestScore = i, s
+		}
+	}
+	if best < 0 {
+		flag := "--time-col"
+		example := "elapsed_s, time (min), t [h] or timestamp"
+		if what == "mass" {
+			flag, example = "--mass-col", "mass_g or weight (kg)"
+		}
+		return -1, fmt.Errorf("no %s column found among %s: expected a name like %s, or pass %s", what, quoteList(header), example, flag)
+	}
+	return best, nil
+}
+
+func quoteList(h []string) string {
+	q := make([]string, len(h))
+	for i, s := range h {
+		q[i] = strconv.Quote(s)
+	}
+	return strings.Join(q, ", ")
+}
+
+// CleanName makes a channel name from a header: lower case, words joined by
+// underscores, "%" as pct, degree signs dropped: "Air temp (°C)" -> "air_temp_c".
+func CleanName(h string) string {
+	var b strings.Builder
+	us := false
+	for _, r := range strings.ToLower(strings.TrimSpace(h)) {
+		switch {
+		case r >= 'a' && r <= 'z' || r >= '0' && r <= '9':
+			b.WriteRune(r)
+			us = false
+		case r == '%':
+			if b.Len() > 0 && !us {
+				b.WriteByte('_')
+			}
+			b.WriteString("pct")
+			us = false
+		case r == '°' || r == 'º':
+		default:
+			if b.Len() > 0 && !us {
+				b.WriteByte('_')
+				us = true
+			}
+		}
+	}
+	return strings.TrimSuffix(b.String(), "_")
+}
+
+// parseClock accepts RFC 3339, and the same with a space for the T (what
+// spreadsheets write); without a zone the time is taken as local.
+func parseClock(s string) (time.Time, bool) {
+	if len(s) < 19 || s[4] != '-' {
+		return time.Time{}, false
+	}
+	for _, layout := range []string{time.RFC3339Nano, "2006-01-02 15:04:05Z07:00", "2006-01-02 15:04:05.999999999Z07:00"} {
+		if t, err := time.Parse(layout, s); err == nil {
+			return t, true
+		}
+	}
+	for _, layout := range []string{"2006-01-02T15:04:05.999999999", "2006-01-02 15:04:05.999999999"} {
+		if t, err := time.ParseInLocation(layout, s, time.Local); err == nil {
+			return t, true
+		}
+	}
+	return time.Time{}, false
+}
+
+// parseHMS accepts elapsed time as h:mm:ss or h:mm:ss.s.
+func parseHMS(s string) (time.Duration, bool) {
+	parts := strings.Split(s, ":")
+	if len(parts) != 3 {
+		return 0, false
+	}
+	h, e1 := strconv.Atoi(parts[0])
+	m, e2 := strconv.Atoi(parts[1])
+	sec, e3 := strconv.ParseFloat(parts[2], 64)
+	if e1 != nil || e2 != nil || e3 != nil || h < 0 || m < 0 || m > 59 || sec < 0 || sec >= 60 {
+		return 0, false
+	}
+	return time.Duration(h)*time.Hour + time.Duration(m)*time.Minute + time.Duration(sec*float64(time.Second)), true
+}
