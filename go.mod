@@ -3,9 +3,10 @@ module parch
 go 1.26.0
 
 require (
-	github.com/creack/pty v1.1.24 // indirect
-	github.com/fsnotify/fsnotify v1.10.1 // indirect
-	go.bug.st/serial v1.8.0 // indirect
-	golang.org/x/sys v0.50.0 // indirect
-	golang.org/x/term v0.48.0 // indirect
+	github.com/creack/pty v1.1.24
+	github.com/fsnotify/fsnotify v1.10.1
+	go.bug.st/serial v1.8.0
+	golang.org/x/term v0.48.0
 )
+
+require golang.org/x/sys v0.50.0 // indirect

@@ -106,7 +106,7 @@ func ParseLine(s string, noUnit Unit) Line {
 	}
 	var toks [24]token
 	n := tokenize(s, toks[:])
-	if n == 0 {
+	if n == 0 || strings.TrimSpace(s) == "" {
 		return Line{Kind: LineBlank}
 	}
 	toks2 := toks[:n]

@@ -439,6 +439,9 @@ func daysFromCivil(y, m, d int) int64 {
 		y--
 	}
 	era := y / 400
+	if y < 0 {
+		era = (y - 399) / 400 // floor division
+	}
 	yoe := y - era*400
 	mp := (m + 9) % 12
 	doy := (153*mp+2)/5 + d - 1
