@@ -2,6 +2,7 @@ package main
 
 import (
 	"bytes"
+	"fmt"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -9,6 +10,9 @@ import (
 	"syscall"
 	"testing"
 	"time"
+
+	"github.com/creack/pty"
+	"golang.org/x/term"
 
 	"parch/internal/session"
 )
@@ -207,5 +211,53 @@ func TestHelp(t *testing.T) {
 	_, stderr, code := parch(t, t.TempDir(), "record", "-h")
 	if code != 0 || !strings.Contains(stderr, "-port DEVICE") || !strings.Contains(stderr, "-stall") {
 		t.Errorf("record -h: %d %s", code, stderr)
+	}
+}
+
+// `parch record --port` on a real pseudo-terminal playing a balance.
+func TestRecordSerialPort(t *testing.T) {
+	master, slave, err := pty.Open()
+	if err != nil {
+		t.Skipf("no pseudo-terminal: %v", err)
+	}
+	defer master.Close()
+	defer slave.Close()
+	term.MakeRaw(int(slave.Fd()))
+	dir := t.TempDir()
+	log := filepath.Join(dir, "bal.jsonl")
+	cmd := exec.Command(binary, "record", "--port", slave.Name(), "--session", log, "--status", "0")
+	if err := cmd.Start(); err != nil {
+		t.Fatal(err)
+	}
+	defer cmd.Process.Kill()
+	stop := make(chan struct{})
+	go func() {
+		for i := 0; ; i++ {
+			select {
+			case <-stop:
+				return
+			case <-time.After(20 * time.Millisecond):
+			}
+			fmt.Fprintf(master, "S S  %8.2f g\r\n", 150-float64(i)*0.01)
+		}
+	}()
+	defer close(stop)
+	deadline := time.Now().Add(10 * time.Second)
+	for {
+		l, err := session.Load(log)
+		if err == nil && l.Readings.Len() >= 20 {
+			if l.Readings.MassG[0] > 150 || l.Readings.MassG[0] < 140 || l.Readings.Stable[0] != 1 {
+				t.Fatalf("first reading %v stable %v", l.Readings.MassG[0], l.Readings.Stable[0])
+			}
+			break
+		}
+		if time.Now().After(deadline) {
+			t.Fatal("no readings recorded from the pty")
+		}
+		time.Sleep(50 * time.Millisecond)
+	}
+	cmd.Process.Signal(syscall.SIGTERM)
+	if err := cmd.Wait(); err != nil {
+		t.Fatalf("record after SIGTERM: %v", err)
 	}
 }

@@ -8,6 +8,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"runtime"
 	"strings"
 	"sync"
 	"testing"
@@ -273,12 +274,24 @@ func writeBigLog(b *testing.B, n int) string {
 func BenchmarkLoad1M(b *testing.B) {
 	path := writeBigLog(b, 1_000_000)
 	b.ReportAllocs()
+	var kept *Log
 	for b.Loop() {
 		l, err := Load(path)
 		if err != nil || l.Readings.Len() != 1_000_000 {
 			b.Fatal(err)
 		}
+		kept = l
 	}
+	// Memory that stays per stored reading (one channel), after GC.
+	var ms runtime.MemStats
+	kept = nil
+	runtime.GC()
+	runtime.ReadMemStats(&ms)
+	base := ms.HeapAlloc
+	kept, _ = Load(path)
+	runtime.GC()
+	runtime.ReadMemStats(&ms)
+	b.ReportMetric(float64(ms.HeapAlloc-base)/float64(kept.Readings.Len()), "heapB/reading")
 }
 
 func BenchmarkAppend(b *testing.B) {
