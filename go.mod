@@ -9,4 +9,7 @@ require (
 	golang.org/x/term v0.48.0
 )
 
-require golang.org/x/sys v0.50.0 // indirect
+require (
+	golang.org/x/sys v0.50.0 // indirect
+	gonum.org/v1/gonum v0.17.0 // indirect
+)
