@@ -53,7 +53,7 @@ func AppleRings() Scenario {
 		CriticalDB:        4.5,
 		ThicknessMM:       6,
 		Faces:             2,
-		DiffusivityM2s:    4e-10,
+		DiffusivityM2s:    5e-10,
 		DurationH:         16,
 		IntervalS:         10,
 		NoiseG:            0.02,

@@ -1,0 +1,739 @@
+package kinetics
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"sort"
+)
+
+// SeriesKind says what the values of a Series are.
+type SeriesKind int
+
+const (
+	SeriesMass       SeriesKind = iota // grams on the balance
+	SeriesMoistureDB                   // dry-basis moisture X
+	SeriesMR                           // moisture ratio
+)
+
+// Series is a run's readings: elapsed hours from the first reading, the
+// values (grams unless Kind says otherwise) and the balance's stability
+// flag (1 stable, −1 unstable, 0 not said).
+type Series struct {
+	TimeH  []float64
+	Value  []float64
+	Stable []int8
+	Kind   SeriesKind
+}
+
+// Options tune an analysis.
+type Options struct {
+	UntilH       float64 // analyse only readings up to this time; NaN or 0: all
+	MaxFitPoints int     // model fits use at most this many time-binned points (default 2000)
+}
+
+// Points are the derived values at every reading (NaN where not known).
+type Points struct {
+	Reject  []uint8   // 0 kept, else a RejectReason code
+	NetG    []float64 // value after tare
+	SmoothG []float64 // smoothed mass
+	RateG   []float64 // drying rate −dm/dt, g/h
+	RateDB  []float64 // −dX/dt, 1/h (dry basis)
+	Flux    []float64 // kg/(m²·h), with the tray area
+	X       []float64 // dry-basis moisture
+	WBPct   []float64 // wet-basis moisture, %
+	MR      []float64 // moisture ratio
+}
+
+// Result is everything parch reports about a run. NaN means "cannot be
+// computed"; Warnings say why.
+type Result struct {
+	Readings            int
+	Rejected            int
+	RejectedBy          map[string]int
+	DurationH           float64
+	InitialMassG        float64
+	DryMassG            float64 // dry solids at the end of the analysed span
+	InitialDryMassG     float64 // dry solids at the start
+	FinalMassG          float64
+	FinalMoistureWBPct  float64
+	FinalMoistureDB     float64
+	InitialMoistureDB   float64
+	TargetMoistureWBPct float64
+	TargetMassG         float64
+	TargetReachedH      float64
+	Projection          Projection
+	ConstantRate        *ConstantRate
+	Fits                []*Fit
+	FitFailures         map[string]string
+	FitPoints           int
+	Best                *Fit
+	Diffusivity         *Diffusivity
+	EndOfRunH           float64
+	Removed             []Removal
+	SuspectedRemovals   []Step
+	NoiseSD             float64
+	Points              Points
+	Warnings            []string
+	MassKnown           bool // false for moisture or MR input: gram figures are NaN
+}
+
+func (r *Result) warn(format string, a ...any) {
+	r.Warnings = append(r.Warnings, fmt.Sprintf(format, a...))
+}
+
+// ErrNoReadings is returned for an empty series.
+var ErrNoReadings = errors.New("no readings")
+
+// Analyze computes every derived value of a run from its readings and setup.
+// It never changes the readings. Values it cannot compute are NaN (or nil)
+// with the reason in Warnings; it returns an error only when there is
+// nothing to analyse.
+func Analyze(s Series, setup Setup, opt Options) (*Result, error) {
+	if err := setup.Validate(); err != nil {
+		return nil, err
+	}
+	n := len(s.TimeH)
+	if len(s.Value) != n || (s.Stable != nil && len(s.Stable) != n) {
+		return nil, fmt.Errorf("kinetics: series columns differ in length")
+	}
+	if !math.IsNaN(opt.UntilH) && opt.UntilH > 0 {
+		k := sort.SearchFloat64s(s.TimeH, opt.UntilH+1e-12)
+		if k < n && isSorted(s.TimeH) {
+			n = k
+		}
+	}
+	if n == 0 {
+		return nil, ErrNoReadings
+	}
+	if opt.MaxFitPoints <= 0 {
+		opt.MaxFitPoints = 2000
+	}
+	t := s.TimeH[:n]
+	r := &Result{Readings: n, RejectedBy: map[string]int{}, FitFailures: map[string]string{},
+		MassKnown: s.Kind == SeriesMass}
+	nan := math.NaN()
+	r.InitialMassG, r.DryMassG, r.InitialDryMassG, r.FinalMassG = nan, nan, nan, nan
+	r.FinalMoistureWBPct, r.FinalMoistureDB, r.InitialMoistureDB = nan, nan, nan
+	r.TargetMoistureWBPct, r.TargetMassG, r.TargetReachedH, r.EndOfRunH = nan, nan, nan, nan
+	r.Projection = Projection{TargetH: nan, LowH: nan, HighH: nan, AsymptoteG: nan, Method: ProjNone}
+	r.DurationH = t[n-1] - t[0]
+
+	// Values as masses: moisture input becomes the mass of 1 g of solids.
+	tare := setup.TareG
+	pts := &r.Points
+	pts.NetG = make([]float64, n)
+	pts.Reject = make([]uint8, n)
+	keep := make([]bool, n)
+	for i := 0; i < n; i++ {
+		v := s.Value[i]
+		switch s.Kind {
+		case SeriesMass:
+			v -= tare
+		default:
+			v = 1 + v
+		}
+		pts.NetG[i] = v
+		switch {
+		case i > 0 && t[i] < t[i-1]:
+			pts.Reject[i] = RejOrder
+		case s.Stable != nil && s.Stable[i] < 0:
+			pts.Reject[i] = RejUnstable
+		case !(v > 0) || math.IsInf(v, 0) || math.IsNaN(t[i]):
+			pts.Reject[i] = RejNotPositive
+		default:
+			keep[i] = true
+		}
+	}
+	kept := countTrue(keep)
+	if kept == 0 {
+		r.countRejects()
+		r.warn("no usable readings: all are unstable, out of order, or not positive after a tare of %g g", tare)
+		return r, nil
+	}
+
+	// Balance noise and resolution from the kept readings.
+	km := make([]float64, 0, kept)
+	kt := make([]float64, 0, kept)
+	for i := range keep {
+		if keep[i] {
+			km = append(km, pts.NetG[i])
+			kt = append(kt, t[i])
+		}
+	}
+	r.NoiseSD = NoiseSD(km)
+	res := Resolution(km)
+	span := kt[len(kt)-1] - kt[0]
+	dt := span / math.Max(float64(len(kt)-1), 1)
+	blockH := math.Max(5.0/60, 7*dt)
+	if span > 0 {
+		blockH = math.Min(blockH, math.Max(span/4, dt))
+	}
+
+	// Steps: declared removals and suspected ones break the trend and the
+	// smoothing, so that neither is smeared over.
+	var declared []float64
+	for _, rm := range setup.Removals {
+		if rm.ElapsedH <= t[n-1] {
+			declared = append(declared, rm.ElapsedH)
+			r.Removed = append(r.Removed, rm)
+		}
+	}
+	medMass := median(km)
+	floor := math.Max(3*res, 3*r.NoiseSD)
+	if s.Kind == SeriesMass && len(km) >= 20 {
+		// Transient spikes first, so they are not taken for steps; the
+		// readings they cost near a real step come back below.
+		noSpikes := append([]bool(nil), keep...)
+		RejectSpikes(t, pts.NetG, noSpikes, blockH, declared, floor)
+		limit := math.Max(math.Max(15*r.NoiseSD, 5*res), 0.005*medMass)
+		dt, dm, dk, dblock := decimateForSteps(t, pts.NetG, noSpikes, 20000)
+		steps := filterSteps(FindSteps(dt, dm, dk, dblock, limit, declared), limit, declared, blockH)
+		r.SuspectedRemovals = refineSteps(steps, t, pts.NetG, keep, blockH)
+	}
+	breaks := append([]float64(nil), declared...)
+	for _, st := range r.SuspectedRemovals {
+		breaks = append(breaks, st.ElapsedH)
+	}
+	sort.Float64s(breaks)
+	if nSpikes := RejectSpikes(t, pts.NetG, keep, blockH, breaks, floor); nSpikes > 0 {
+		for i := range keep {
+			if !keep[i] && pts.Reject[i] == KeepOK {
+				pts.Reject[i] = RejSpike
+			}
+		}
+	}
+	r.countRejects()
+
+	// Smoothed mass and rate, segment by segment between steps.
+	pts.SmoothG, pts.RateG = smoothSegments(t, pts.NetG, keep, breaks, r.NoiseSD)
+	first, last := -1, -1
+	for i := range keep {
+		if keep[i] && !math.IsNaN(pts.SmoothG[i]) {
+			if first < 0 {
+				first = i
+			}
+			last = i
+		}
+	}
+	if first < 0 {
+		r.warn("too few usable readings to smooth (%d)", countTrue(keep))
+		return r, nil
+	}
+	m0 := pts.SmoothG[first]
+	if !math.IsNaN(setup.InitialMassG) && s.Kind == SeriesMass {
+		m0 = setup.InitialMassG
+	}
+	r.InitialMassG = m0
+	r.FinalMassG = pts.SmoothG[last]
+
+	// Dry solids over time: S0 at the start, reduced by each removal.
+	solids := solidsProfile(r, s.Kind, setup, t, pts.SmoothG, keep, m0)
+
+	n0 := n
+	pts.X = nanSlice(n0)
+	pts.WBPct = nanSlice(n0)
+	pts.MR = nanSlice(n0)
+	pts.RateDB = nanSlice(n0)
+	pts.Flux = nanSlice(n0)
+	xe := setup.EquilibriumDB
+	if s.Kind == SeriesMR {
+		xe = 0
+	}
+	if solids != nil {
+		sEnd := solids.at(t[n-1])
+		r.DryMassG = sEnd
+		r.InitialDryMassG = solids.s0
+		x0 := m0/solids.s0 - 1
+		r.InitialMoistureDB = x0
+		if !(x0 > xe) {
+			r.warn("initial moisture %.3g (dry basis) is not above the equilibrium moisture %.3g: moisture ratio not defined", x0, xe)
+		}
+		for i := 0; i < n; i++ {
+			if pts.Reject[i] == RejOrder || !(pts.NetG[i] > 0) {
+				continue
+			}
+			sol := solids.at(t[i])
+			x := pts.NetG[i]/sol - 1
+			pts.X[i] = x
+			pts.WBPct[i] = 100 * DryToWet(x)
+			if x0 > xe {
+				pts.MR[i] = (x - xe) / (x0 - xe)
+			}
+			if !math.IsNaN(pts.RateG[i]) {
+				pts.RateDB[i] = pts.RateG[i] / sol
+				if setup.AreaM2 > 0 {
+					pts.Flux[i] = pts.RateG[i] / 1000 / setup.AreaM2
+				}
+			}
+		}
+		xf := r.FinalMassG/sEnd - 1
+		r.FinalMoistureDB = xf
+		r.FinalMoistureWBPct = 100 * DryToWet(xf)
+		if xf < 0 {
+			r.warn("the final mass %.2f g is below the dry solids %.2f g: check the dry mass or the initial moisture", r.FinalMassG, sEnd)
+		}
+		if xt := setup.TargetX(); !math.IsNaN(xt) {
+			r.TargetMoistureWBPct = 100 * DryToWet(xt)
+			r.TargetMassG = sEnd * (1 + xt)
+			r.TargetReachedH = reachedAt(t, pts.SmoothG, keep, solids, xt)
+			if r.TargetReachedH == t[first] {
+				r.warn("the target %.1f %% wet basis is at or above the initial moisture: reached at the start", r.TargetMoistureWBPct)
+			}
+		} else {
+			r.warn("no target moisture given (--target): no target mass, no projection")
+		}
+	}
+
+	// Drying periods.
+	peakRate := 0.0
+	for i := range pts.RateG {
+		if keep[i] && pts.RateG[i] > peakRate {
+			peakRate = pts.RateG[i]
+		}
+	}
+	hPeak := RateWindow(peakRate, r.NoiseSD, dt, 3*dt, math.Max(math.Min(span/6, 2), 3*dt))
+	rateSD := math.Sqrt(1.5 * r.NoiseSD * r.NoiseSD * dt / math.Pow(hPeak, 3))
+	if cr := FindConstantRate(t, pts.SmoothG, maskNaN(pts.RateG, keep), rateSD, hPeak); cr != nil {
+		if solids != nil {
+			cr.CriticalDB = pts.SmoothG[indexAt(t, keep, cr.EndH)]/solids.at(cr.EndH) - 1
+		}
+		r.ConstantRate = cr
+	}
+
+	// Model fits on the moisture ratio.
+	fitT, fitMR := binned(t, pts.MR, keep, opt.MaxFitPoints)
+	r.FitPoints = len(fitT)
+	switch {
+	case solids == nil:
+		r.warn("model fits, diffusivity and projection need the dry solids: give --initial-moisture or --dry-mass")
+	case len(fitT) < 5:
+		r.warn("model fits need at least 5 usable moisture ratios, have %d", len(fitT))
+	case minOf(fitMR) > 0.95:
+		r.warn("the moisture ratio has fallen only to %.3f: too early for model fits", minOf(fitMR))
+	default:
+		r.Fits, r.FitFailures = FitAll(fitT, fitMR)
+		for name, why := range r.FitFailures {
+			r.warn("%s not fitted: %s", name, why)
+		}
+		for _, f := range r.Fits {
+			if !f.Converged {
+				r.warn("%s fit did not converge: %s", f.Model.Name, f.Note)
+			} else if f.Degenerate {
+				r.warn("%s: %s", f.Model.Name, f.Note)
+			}
+		}
+		r.Best = Best(r.Fits)
+	}
+
+	// Diffusivity from the falling-rate period.
+	if solids != nil && len(fitT) >= 5 && minOf(fitMR) <= 0.95 {
+		switch {
+		case !(setup.ThicknessMM > 0):
+			r.warn("diffusivity needs the slice thickness (--thickness)")
+		default:
+			if setup.Faces == 0 {
+				r.warn("drying faces not given: 2 assumed (a mesh tray); use --faces 1 for a solid tray")
+			}
+			from := t[first]
+			if r.ConstantRate != nil {
+				from = r.ConstantRate.EndH
+			}
+			var dtT, dMR []float64
+			for i := range fitT {
+				if fitT[i] >= from && fitMR[i] >= 0.02 {
+					dtT = append(dtT, fitT[i])
+					dMR = append(dMR, fitMR[i])
+				}
+			}
+			d, err := FitDiffusivity(dtT, dMR, setup.HalfThicknessM(), r.ConstantRate != nil)
+			if err != nil {
+				r.warn("diffusivity not fitted: %v", err)
+			} else {
+				r.Diffusivity = d
+				if !d.Converged {
+					r.warn("diffusivity fit did not converge")
+				}
+			}
+		}
+	}
+
+	// Projection to the target.
+	nowH := t[last]
+	switch {
+	case !math.IsNaN(r.TargetReachedH):
+		r.Projection = Projection{TargetH: r.TargetReachedH, LowH: r.TargetReachedH, HighH: r.TargetReachedH,
+			Method: ProjReached, AsymptoteG: nan}
+	case solids != nil && !math.IsNaN(r.TargetMassG):
+		from := t[first]
+		if r.ConstantRate != nil {
+			from = r.ConstantRate.EndH
+		}
+		sEnd := solids.at(nowH)
+		var pt, pm []float64
+		for i := range keep {
+			if keep[i] {
+				pt = append(pt, t[i])
+				pm = append(pm, pts.NetG[i]*sEnd/solids.at(t[i])) // as if on today's solids
+			}
+		}
+		constantNow := r.ConstantRate != nil && r.ConstantRate.EndH >= nowH-2*hPeak
+		floorG := sEnd * (1 + xe)
+		r.Projection = Project(pt, pm, from, nowH, r.TargetMassG, floorG, sEnd, pts.RateG[last], constantNow)
+		if r.Projection.Why != "" {
+			r.warn("projection: %s", r.Projection.Why)
+		}
+	}
+
+	// End of run: steady weight.
+	r.EndOfRunH = steadyAt(t, pts.NetG, keep, breaks, setup.SteadyWindowH, setup.SteadyPct)
+
+	if !r.MassKnown {
+		r.InitialMassG, r.DryMassG, r.InitialDryMassG, r.FinalMassG, r.TargetMassG = nan, nan, nan, nan, nan
+		r.Projection.AsymptoteG = nan
+		if r.ConstantRate != nil {
+			r.ConstantRate.RateGPerH = nan
+		}
+		if s.Kind == SeriesMR {
+			r.FinalMoistureDB, r.FinalMoistureWBPct, r.InitialMoistureDB, r.TargetMoistureWBPct = nan, nan, nan, nan
+			r.warn("input is a moisture ratio: no masses or moisture contents, only fits and times")
+		} else {
+			r.warn("input is dry-basis moisture: figures in grams are not known")
+		}
+	}
+	return r, nil
+}
+
+func (r *Result) countRejects() {
+	r.Rejected = 0
+	r.RejectedBy = map[string]int{}
+	for _, c := range r.Points.Reject {
+		if c != KeepOK {
+			r.Rejected++
+			r.RejectedBy[RejectReason(c)]++
+		}
+	}
+}
+
+// solids is the dry solids on the balance: s0 from the start, times a
+// factor after each removal.
+type solids struct {
+	s0      float64
+	times   []float64
+	factors []float64 // cumulative, after each time
+}
+
+func (s *solids) at(t float64) float64 {
+	k := sort.SearchFloat64s(s.times, t)
+	for k < len(s.times) && s.times[k] <= t {
+		k++
+	}
+	if k == 0 {
+		return s.s0
+	}
+	return s.s0 * s.factors[k-1]
+}
+
+// solidsProfile works out the dry solids from the setup. DOMAIN.md: a piece
+// of mass Δm taken out at mass m leaves solids m_s·(1 − Δm/m), the piece
+// having the moisture of the rest. A dry mass from an oven test is the
+// solids left at the end.
+func solidsProfile(r *Result, kind SeriesKind, setup Setup, t, smooth []float64, keep []bool, m0 float64) *solids {
+	if kind != SeriesMass {
+		return &solids{s0: 1}
+	}
+	rem := append([]Removal(nil), setup.Removals...)
+	sort.Slice(rem, func(i, j int) bool { return rem[i].ElapsedH < rem[j].ElapsedH })
+	sp := &solids{}
+	f := 1.0
+	for _, rm := range rem {
+		if rm.ElapsedH > t[len(t)-1] {
+			continue
+		}
+		j := lastKeptBefore(t, keep, rm.ElapsedH)
+		if j < 0 {
+			r.warn("removal at %.2f h is before the first reading: ignored", rm.ElapsedH)
+			continue
+		}
+		mb := smooth[j]
+		if !(rm.MassG < mb) {
+			r.warn("removal of %.2f g at %.2f h is not less than the mass then (%.2f g): ignored", rm.MassG, rm.ElapsedH, mb)
+			continue
+		}
+		f *= 1 - rm.MassG/mb
+		sp.times = append(sp.times, rm.ElapsedH)
+		sp.factors = append(sp.factors, f)
+	}
+	switch {
+	case !math.IsNaN(setup.DryMassG):
+		sp.s0 = setup.DryMassG / f
+		if !math.IsNaN(setup.InitialMoistureWB) {
+			implied := 100 * (1 - sp.s0/m0)
+			if math.Abs(implied-setup.InitialMoistureWB) > 2 {
+				r.warn("the dry mass implies an initial moisture of %.1f %% wet basis, not the %.1f %% given; the dry mass is used", implied, setup.InitialMoistureWB)
+			}
+		}
+	case !math.IsNaN(setup.InitialMoistureWB):
+		sp.s0 = m0 * (1 - setup.InitialMoistureWB/100)
+	default:
+		r.warn("no initial moisture or dry mass given: moisture contents are not known (--initial-moisture PCT or --dry-mass G)")
+		return nil
+	}
+	if !(sp.s0 < m0) {
+		r.warn("the dry mass (%.2f g at the start) is not less than the initial mass %.2f g: check --dry-mass and --tare", sp.s0, m0)
+		return nil
+	}
+	return sp
+}
+
+func lastKeptBefore(t []float64, keep []bool, at float64) int {
+	j := -1
+	for i := range t {
+		if t[i] >= at {
+			break
+		}
+		if keep[i] {
+			j = i
+		}
+	}
+	return j
+}
+
+func indexAt(t []float64, keep []bool, at float64) int {
+	best := -1
+	for i := range t {
+		if keep[i] && (best < 0 || math.Abs(t[i]-at) < math.Abs(t[best]-at)) {
+			best = i
+		}
+	}
+	return best
+}
+
+// reachedAt is the first time the smoothed moisture is at or below xt,
+// interpolated between readings; NaN if never.
+func reachedAt(t, smooth []float64, keep []bool, sp *solids, xt float64) float64 {
+	prevT, prevX := math.NaN(), math.NaN()
+	for i := range t {
+		if !keep[i] || math.IsNaN(smooth[i]) {
+			continue
+		}
+		x := smooth[i]/sp.at(t[i]) - 1
+		if x <= xt {
+			if math.IsNaN(prevT) || prevX == x {
+				return t[i]
+			}
+			return prevT + (t[i]-prevT)*(prevX-xt)/(prevX-x)
+		}
+		prevT, prevX = t[i], x
+	}
+	return math.NaN()
+}
+
+// steadyAt is the first time the weight has been steady: the linear change
+// over the trailing window is within pct % of the mass. NaN if never.
+func steadyAt(t, m []float64, keep []bool, breaks []float64, windowH, pct float64) float64 {
+	var tt, mm []float64
+	for i := range t {
+		if keep[i] {
+			tt = append(tt, t[i])
+			mm = append(mm, m[i])
+		}
+	}
+	if len(tt) < 10 || tt[len(tt)-1]-tt[0] < windowH {
+		return math.NaN()
+	}
+	step := windowH / 10
+	for end := tt[0] + windowH; end <= tt[len(tt)-1]+1e-9; end += step {
+		lo := sort.SearchFloat64s(tt, end-windowH)
+		hi := sort.SearchFloat64s(tt, end+1e-12)
+		if hi-lo < 5 || crosses(breaks, end-windowH, end) {
+			continue
+		}
+		_, slope, err := LocalPoly(tt[lo:hi], mm[lo:hi], end, 1)
+		if err != nil {
+			continue
+		}
+		level := median(mm[lo:hi])
+		if math.Abs(slope)*windowH <= pct/100*level {
+			return end
+		}
+	}
+	return math.NaN()
+}
+
+func crosses(breaks []float64, from, to float64) bool {
+	for _, b := range breaks {
+		if b > from && b <= to {
+			return true
+		}
+	}
+	return false
+}
+
+// smoothSegments runs SmoothRate on each stretch between steps.
+func smoothSegments(t, m []float64, keep []bool, breaks []float64, sd float64) ([]float64, []float64) {
+	n := len(t)
+	smooth, rate := nanSlice(n), nanSlice(n)
+	bounds := append([]float64{math.Inf(-1)}, breaks...)
+	bounds = append(bounds, math.Inf(1))
+	for b := 0; b+1 < len(bounds); b++ {
+		seg := make([]bool, n)
+		for i := range t {
+			seg[i] = keep[i] && t[i] >= bounds[b] && t[i] < bounds[b+1]
+		}
+		sm, rt := SmoothRate(t, m, seg, sd)
+		for i := range t {
+			if seg[i] {
+				smooth[i], rate[i] = sm[i], rt[i]
+			}
+		}
+	}
+	return smooth, rate
+}
+
+// binned averages kept, finite values into at most maxN equal time bins.
+func binned(t, v []float64, keep []bool, maxN int) ([]float64, []float64) {
+	var tt, vv []float64
+	for i := range t {
+		if keep[i] && !math.IsNaN(v[i]) {
+			tt = append(tt, t[i])
+			vv = append(vv, v[i])
+		}
+	}
+	if len(tt) <= maxN {
+		return tt, vv
+	}
+	t0, t1 := tt[0], tt[len(tt)-1]
+	w := (t1 - t0) / float64(maxN)
+	var bt, bv []float64
+	sumT, sumV, c, bin := 0.0, 0.0, 0, 0
+	for i := range tt {
+		b := min(int((tt[i]-t0)/w), maxN-1)
+		if b != bin && c > 0 {
+			bt = append(bt, sumT/float64(c))
+			bv = append(bv, sumV/float64(c))
+			sumT, sumV, c = 0, 0, 0
+		}
+		bin = b
+		sumT += tt[i]
+		sumV += vv[i]
+		c++
+	}
+	if c > 0 {
+		bt = append(bt, sumT/float64(c))
+		bv = append(bv, sumV/float64(c))
+	}
+	return bt, bv
+}
+
+// decimateForSteps bins long series to medians so step finding stays fast.
+func decimateForSteps(t, m []float64, keep []bool, maxN int) ([]float64, []float64, []bool, float64) {
+	var tt, mm []float64
+	for i := range t {
+		if keep[i] {
+			tt = append(tt, t[i])
+			mm = append(mm, m[i])
+		}
+	}
+	if len(tt) > maxN {
+		per := (len(tt) + maxN - 1) / maxN
+		var bt, bm []float64
+		for i := 0; i < len(tt); i += per {
+			j := min(i+per, len(tt))
+			bt = append(bt, median(tt[i:j]))
+			bm = append(bm, median(mm[i:j]))
+		}
+		tt, mm = bt, bm
+	}
+	k := make([]bool, len(tt))
+	for i := range k {
+		k[i] = true
+	}
+	span := 0.0
+	if len(tt) > 1 {
+		span = tt[len(tt)-1] - tt[0]
+	}
+	block := math.Max(5.0/60, 7*span/math.Max(float64(len(tt)-1), 1))
+	return tt, mm, k, block
+}
+
+// refineSteps puts each step at the largest drop between consecutive kept
+// readings within a block of where it was found, and merges steps closer
+// than two blocks (keeping the larger).
+func refineSteps(steps []Step, t, m []float64, keep []bool, blockH float64) []Step {
+	var out []Step
+	for _, st := range steps {
+		prev, best, bestDrop := -1, -1, math.Inf(-1)
+		for i := range t {
+			if !keep[i] {
+				continue
+			}
+			if prev >= 0 && math.Abs(t[i]-st.ElapsedH) <= blockH && m[prev]-m[i] > bestDrop {
+				best, bestDrop = i, m[prev]-m[i]
+			}
+			prev = i
+		}
+		if best >= 0 {
+			st.ElapsedH = t[best]
+		}
+		if n := len(out); n > 0 && st.ElapsedH-out[n-1].ElapsedH <= 2*blockH {
+			if st.MassG > out[n-1].MassG {
+				out[n-1] = st
+			}
+			continue
+		}
+		out = append(out, st)
+	}
+	return out
+}
+
+// filterSteps keeps steps above limit that were not declared.
+func filterSteps(steps []Step, limit float64, declared []float64, blockH float64) []Step {
+	var out []Step
+	for _, s := range steps {
+		if s.MassG <= limit {
+			continue
+		}
+		dup := false
+		for _, d := range declared {
+			if math.Abs(d-s.ElapsedH) <= 2*blockH {
+				dup = true
+			}
+		}
+		if !dup {
+			out = append(out, s)
+		}
+	}
+	return out
+}
+
+func countTrue(b []bool) int {
+	c := 0
+	for _, v := range b {
+		if v {
+			c++
+		}
+	}
+	return c
+}
+
+func nanSlice(n int) []float64 {
+	s := make([]float64, n)
+	for i := range s {
+		s[i] = math.NaN()
+	}
+	return s
+}
+
+func maskNaN(v []float64, keep []bool) []float64 {
+	out := make([]float64, len(v))
+	for i := range v {
+		out[i] = math.NaN()
+		if keep[i] {
+			out[i] = v[i]
+		}
+	}
+	return out
+}
+
+func isSorted(t []float64) bool { return sort.Float64sAreSorted(t) }

@@ -1,0 +1,314 @@
+package kinetics
+
+import (
+	"math"
+	"sort"
+)
+
+// Why a reading is left out of the analysis (it stays in the record).
+const (
+	KeepOK        uint8 = iota
+	RejUnstable         // the balance said it had not settled
+	RejNotPositive      // zero or negative after tare
+	RejSpike            // far off the local trend (a hand, a door, a gust)
+	RejOrder            // time earlier than the reading before
+)
+
+// RejectReason names a rejection code.
+func RejectReason(code uint8) string {
+	switch code {
+	case RejUnstable:
+		return "unstable"
+	case RejNotPositive:
+		return "not_positive"
+	case RejSpike:
+		return "spike"
+	case RejOrder:
+		return "out_of_order"
+	}
+	return ""
+}
+
+// NoiseSD estimates the balance noise (g) from second differences of
+// consecutive readings, robustly: 1.4826·MAD/√6 (for white noise the second
+// difference has variance 6σ²). A drying curve is smooth enough that its own
+// second differences vanish next to the noise at balance reading intervals.
+func NoiseSD(m []float64) float64 {
+	if len(m) < 5 {
+		return math.NaN()
+	}
+	d := make([]float64, 0, len(m)-2)
+	for i := 1; i+1 < len(m); i++ {
+		d = append(d, m[i+1]-2*m[i]+m[i-1])
+	}
+	med := median(d)
+	for i := range d {
+		d[i] = math.Abs(d[i] - med)
+	}
+	return 1.4826 * median(d) / math.Sqrt(6)
+}
+
+// Resolution guesses the balance resolution: the smallest non-zero step
+// between readings, on a decimal grid.
+func Resolution(m []float64) float64 {
+	best := math.Inf(1)
+	for i := 1; i < len(m) && i < 5000; i++ {
+		if d := math.Abs(m[i] - m[i-1]); d > 1e-9 && d < best {
+			best = d
+		}
+	}
+	if math.IsInf(best, 1) {
+		return 0
+	}
+	return math.Pow(10, math.Round(math.Log10(best)))
+}
+
+// trend is a robust piecewise-linear trend through block medians, broken
+// at steps (removals) so that a step is not smoothed over.
+type trend struct {
+	kt, km []float64 // knots: median time and median mass per block
+	seg    []int     // segment of each knot
+	breaks []float64 // segment boundaries (times)
+}
+
+func (tr *trend) at(t float64) float64 {
+	s := sort.SearchFloat64s(tr.breaks, t)
+	if s < len(tr.breaks) && tr.breaks[s] == t {
+		s++ // a boundary belongs to the segment after it
+	}
+	// knots of segment s
+	lo := sort.Search(len(tr.seg), func(i int) bool { return tr.seg[i] >= s })
+	hi := sort.Search(len(tr.seg), func(i int) bool { return tr.seg[i] > s })
+	if lo >= hi {
+		return math.NaN()
+	}
+	kt, km := tr.kt[lo:hi], tr.km[lo:hi]
+	if len(kt) == 1 {
+		return km[0]
+	}
+	j := sort.SearchFloat64s(kt, t)
+	switch {
+	case j <= 0:
+		j = 1
+	case j >= len(kt):
+		j = len(kt) - 1
+	}
+	f := (t - kt[j-1]) / (kt[j] - kt[j-1])
+	return km[j-1] + f*(km[j]-km[j-1])
+}
+
+// buildTrend makes knots from blocks of width w (h) over the kept points,
+// not crossing breaks. A knot sits at the block's mean time; its value is
+// the median of the block's masses carried to that time along the local
+// slope, so outliers bunched at one end of a block do not shift it.
+func buildTrend(t, m []float64, keep []bool, w float64, breaks []float64) *trend {
+	tr := &trend{breaks: breaks}
+	type block struct {
+		seg int
+		idx []int
+	}
+	var blocks []block
+	seg := 0
+	start := math.NaN()
+	for i := range t {
+		if !keep[i] {
+			continue
+		}
+		s := sort.SearchFloat64s(breaks, t[i])
+		if s < len(breaks) && breaks[s] == t[i] {
+			s++
+		}
+		if s != seg || math.IsNaN(start) || t[i]-start >= w {
+			blocks = append(blocks, block{seg: s})
+			seg, start = s, t[i]
+		}
+		blocks[len(blocks)-1].idx = append(blocks[len(blocks)-1].idx, i)
+	}
+	// First pass: plain medians, for the local slopes.
+	mt := make([]float64, len(blocks))
+	mv := make([]float64, len(blocks))
+	var bt, bm []float64
+	for b, bl := range blocks {
+		bt, bm = bt[:0], bm[:0]
+		for _, i := range bl.idx {
+			bt = append(bt, t[i])
+			bm = append(bm, m[i])
+		}
+		mt[b], mv[b] = median(bt), median(bm)
+	}
+	for b, bl := range blocks {
+		slope := 0.0
+		lo, hi := b, b
+		if b > 0 && blocks[b-1].seg == bl.seg {
+			lo = b - 1
+		}
+		if b+1 < len(blocks) && blocks[b+1].seg == bl.seg {
+			hi = b + 1
+		}
+		if hi > lo && mt[hi] > mt[lo] {
+			slope = (mv[hi] - mv[lo]) / (mt[hi] - mt[lo])
+		}
+		tc := 0.0
+		for _, i := range bl.idx {
+			tc += t[i]
+		}
+		tc /= float64(len(bl.idx))
+		bm = bm[:0]
+		for _, i := range bl.idx {
+			bm = append(bm, m[i]-slope*(t[i]-tc))
+		}
+		tr.kt = append(tr.kt, tc)
+		tr.km = append(tr.km, median(bm))
+		tr.seg = append(tr.seg, bl.seg)
+	}
+	return tr
+}
+
+// RejectSpikes marks readings far from a robust local trend. keep on entry
+// says which readings are candidates (stable, positive); on return spikes
+// are cleared. breaks are times of steps (removals) the trend must not
+// smooth over. The limit at each reading is six robust standard deviations
+// of the residuals in its neighbourhood (three blocks), so a curve that
+// bends hard early in a run is not mistaken for spikes, and never below
+// floorG. It returns the number rejected.
+func RejectSpikes(t, m []float64, keep []bool, blockH float64, breaks []float64, floorG float64) int {
+	rejected := 0
+	for pass := 0; pass < 2; pass++ {
+		tr := buildTrend(t, m, keep, blockH, breaks)
+		// residuals per block of time
+		res := make([]float64, len(t))
+		blocks := map[int][]float64{}
+		t0 := math.NaN()
+		for i := range t {
+			if !keep[i] {
+				continue
+			}
+			if math.IsNaN(t0) {
+				t0 = t[i]
+			}
+			res[i] = math.Abs(m[i] - tr.at(t[i]))
+			b := int((t[i] - t0) / blockH)
+			blocks[b] = append(blocks[b], res[i])
+		}
+		if len(blocks) == 0 {
+			return rejected
+		}
+		scale := map[int]float64{}
+		for b := range blocks {
+			var near []float64
+			for d := -1; d <= 1; d++ {
+				near = append(near, blocks[b+d]...)
+			}
+			scale[b] = 1.4826 * median(near)
+		}
+		for i := range t {
+			if !keep[i] {
+				continue
+			}
+			b := int((t[i] - t0) / blockH)
+			if res[i] > math.Max(6*scale[b], floorG) {
+				keep[i] = false
+				rejected++
+			}
+		}
+	}
+	return rejected
+}
+
+// Step is a drop in mass that drying does not explain (a suspected removal).
+type Step struct {
+	ElapsedH float64
+	MassG    float64 // the drop, positive
+}
+
+// FindSteps looks for sudden persistent drops: where the median of the next
+// few readings lies below what the readings before, carried on at their
+// own rate, predict, by more than limit grams. known are steps already
+// declared (not reported again).
+func FindSteps(t, m []float64, keep []bool, blockH, limit float64, known []float64) []Step {
+	var tt, mm []float64
+	for i := range t {
+		if keep[i] {
+			tt = append(tt, t[i])
+			mm = append(mm, m[i])
+		}
+	}
+	n := len(tt)
+	if n < 20 {
+		return nil
+	}
+	var steps []Step
+	k := 0
+	for k < n && tt[k]-tt[0] < blockH {
+		k++
+	}
+	k = max(k, 5)
+	for i := k; i+k <= n; i++ {
+		// before: [i−k, i), after: [i, i+k)
+		bt, bm := tt[i-k:i], mm[i-k:i]
+		at, am := tt[i:i+k], mm[i:i+k]
+		slope := robustSlope(bt, bm)
+		pred := median(bm) + slope*(median(at)-median(bt))
+		drop := pred - median(am)
+		if drop <= limit {
+			continue
+		}
+		// Refine to the local largest drop, then skip past it.
+		best, bestDrop := i, drop
+		for j := i + 1; j < min(i+k, n-k+1); j++ {
+			bt, bm := tt[j-k:j], mm[j-k:j]
+			at, am := tt[j:j+k], mm[j:j+k]
+			d := median(bm) + robustSlope(bt, bm)*(median(at)-median(bt)) - median(am)
+			if d > bestDrop {
+				best, bestDrop = j, d
+			}
+		}
+		// The step itself: the largest drop between neighbours near there.
+		for q := max(best-k/2, 1); q < min(best+k/2, n); q++ {
+			if mm[q-1]-mm[q] > mm[best-1]-mm[best] {
+				best = q
+			}
+		}
+		size := bestDrop
+		declared := false
+		for _, kt := range known {
+			if math.Abs(kt-tt[best]) <= blockH {
+				declared = true
+			}
+		}
+		if !declared {
+			steps = append(steps, Step{ElapsedH: tt[best], MassG: size})
+		}
+		i = best + k
+	}
+	return steps
+}
+
+// robustSlope is the Theil–Sen-like slope between the medians of the two
+// halves of the points.
+func robustSlope(t, m []float64) float64 {
+	h := len(t) / 2
+	if h < 1 {
+		return 0
+	}
+	dt := median(t[len(t)-h:]) - median(t[:h])
+	if dt == 0 {
+		return 0
+	}
+	return (median(m[len(m)-h:]) - median(m[:h])) / dt
+}
+
+// median of v; v is not changed.
+func median(v []float64) float64 {
+	n := len(v)
+	if n == 0 {
+		return math.NaN()
+	}
+	c := make([]float64, n)
+	copy(c, v)
+	sort.Float64s(c)
+	if n%2 == 1 {
+		return c[n/2]
+	}
+	return (c[n/2-1] + c[n/2]) / 2
+}

@@ -1,0 +1,106 @@
+package kinetics
+
+import "math"
+
+// ConstantRate describes a constant-rate period found in the data.
+type ConstantRate struct {
+	StartH, EndH float64
+	RateGPerH    float64 // water loss rate over the period
+	CriticalDB   float64 // dry-basis moisture where it ends; NaN without dry solids
+}
+
+// Tolerances for calling a stretch of the rate curve constant (common
+// practice for reading a rate plateau, not from one source): the smoothed
+// rate stays within ±8 % (plus its own noise) of its peak, the stretch
+// removes at least 10 % of the water the run removed, and lasts at least
+// four smoothing windows.
+const (
+	plateauTol     = 0.08
+	plateauMinFrac = 0.10
+)
+
+// FindConstantRate looks for a constant-rate period in the smoothed rate.
+// It returns nil when there is none: many fruits have none, and one is
+// never invented. rateSD is the typical noise of the smoothed rate (g/h).
+func FindConstantRate(t, smooth, rate []float64, rateSD, windowH float64) *ConstantRate {
+	var idx []int
+	for i := range t {
+		if !math.IsNaN(rate[i]) {
+			idx = append(idx, i)
+		}
+	}
+	if len(idx) < 10 {
+		return nil
+	}
+	first, last := idx[0], idx[len(idx)-1]
+	lost := smooth[first] - smooth[last]
+	if !(lost > 0) {
+		return nil
+	}
+	// A running median over two smoothing windows each side: the rate at
+	// the ends comes from one-sided fits, noisier than inside, and one noisy
+	// value must not set the peak.
+	med := make([]float64, len(rate))
+	copy(med, rate)
+	buf := make([]float64, 0, 64)
+	for k, i := range idx {
+		buf = buf[:0]
+		for q := k; q >= 0 && t[i]-t[idx[q]] <= 2*windowH; q-- {
+			buf = append(buf, rate[idx[q]])
+		}
+		for q := k + 1; q < len(idx) && t[idx[q]]-t[i] <= 2*windowH; q++ {
+			buf = append(buf, rate[idx[q]])
+		}
+		med[i] = median(buf)
+	}
+	rate = med
+	// The peak, in the first half of the run (after the warm-up).
+	peak := -1
+	for _, i := range idx {
+		if t[i]-t[first] > (t[last]-t[first])/2 {
+			break
+		}
+		if peak < 0 || rate[i] > rate[peak] {
+			peak = i
+		}
+	}
+	if peak < 0 || !(rate[peak] > 0) {
+		return nil
+	}
+	// Level: the median rate near the peak, so one noisy maximum does not
+	// set it.
+	tol := plateauTol + 3*rateSD/rate[peak]
+	pos := 0
+	for k, i := range idx {
+		if i == peak {
+			pos = k
+		}
+	}
+	lo, hi := pos, pos
+	for lo > 0 && rate[idx[lo-1]] >= (1-tol)*rate[peak] {
+		lo--
+	}
+	for hi+1 < len(idx) && rate[idx[hi+1]] >= (1-tol)*rate[peak] {
+		hi++
+	}
+	// Where the rate starts to fall: the first point past the middle of the
+	// plateau that drops below its level by more than the rate's noise.
+	var lv []float64
+	for q := lo; q <= hi; q++ {
+		lv = append(lv, rate[idx[q]])
+	}
+	level := median(lv)
+	delta := 0.01 + 3*rateSD/level
+	for q := (lo + hi) / 2; q <= hi; q++ {
+		if rate[idx[q]] < level*(1-delta) {
+			hi = max(q-1, lo)
+			break
+		}
+	}
+	s, e := idx[lo], idx[hi]
+	dur := t[e] - t[s]
+	if dur < 4*windowH || smooth[s]-smooth[e] < plateauMinFrac*lost {
+		return nil
+	}
+	return &ConstantRate{StartH: t[s], EndH: t[e], RateGPerH: (smooth[s] - smooth[e]) / dur, CriticalDB: math.NaN()}
+}
