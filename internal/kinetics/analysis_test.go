@@ -29,7 +29,7 @@ func crankRun(n int, spacingH float64) Series {
 	var s Series
 	for i := 0; i < n; i++ {
 		h := float64(i) * spacingH
-		x := 0.05 + 6*PlaneSheetMR(0.02+0.2*h)+0.01/30*math.Sin(float64(i)*2.3)
+		x := 0.05 + 6*PlaneSheetMR(0.02+0.2*h) + 0.01/30*math.Sin(float64(i)*2.3)
 		s.TimeH = append(s.TimeH, h)
 		s.Value = append(s.Value, 30*(1+x))
 		s.Stable = append(s.Stable, 1)

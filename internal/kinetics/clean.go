@@ -7,11 +7,11 @@ import (
 
 // Why a reading is left out of the analysis (it stays in the record).
 const (
-	KeepOK        uint8 = iota
-	RejUnstable         // the balance said it had not settled
-	RejNotPositive      // zero or negative after tare
-	RejSpike            // far off the local trend (a hand, a door, a gust)
-	RejOrder            // time earlier than the reading before
+	KeepOK         uint8 = iota
+	RejUnstable          // the balance said it had not settled
+	RejNotPositive       // zero or negative after tare
+	RejSpike             // far off the local trend (a hand, a door, a gust)
+	RejOrder             // time earlier than the reading before
 )
 
 // RejectReason names a rejection code.

@@ -7,10 +7,10 @@ import (
 
 // Projection methods, as written in reports.
 const (
-	ProjReached     = "reached"                 // the target has been reached
-	ProjExponential = "exponential_to_asymptote" // rolling fit of m∞ + A·e^(−k t)
+	ProjReached     = "reached"                    // the target has been reached
+	ProjExponential = "exponential_to_asymptote"   // rolling fit of m∞ + A·e^(−k t)
 	ProjEquilibrium = "exponential_to_equilibrium" // asymptote fixed at the given equilibrium: earliest time
-	ProjLinear      = "linear_at_current_rate"   // lower bound: the rate will fall
+	ProjLinear      = "linear_at_current_rate"     // lower bound: the rate will fall
 	ProjNone        = "none"
 )
 
