@@ -46,7 +46,7 @@ func init() {
 		{"note", "add a note (bend test, case hardening, a piece removed...) to a session log", runNote},
 		{"simulate", "write an invented drying run as CSV, for trying the file source", runSimulate},
 		{"watch", "live dashboard (not built yet: use record, or demo for live status lines)", runWatch},
-		{"report", "analyse a session log (not built yet)", runReport},
+		{"report", "analyse a session log or a CSV: moisture, rate, periods, models, diffusivity, projection", runReport},
 	}
 }
 
@@ -158,8 +158,4 @@ func parseFlags(fs *flag.FlagSet, args []string) ([]string, error) {
 
 func runWatch(args []string, stdout, stderr io.Writer) error {
 	return errors.New("the live dashboard is not built yet; for now use 'parch record' (headless, status lines) or 'parch demo'")
-}
-
-func runReport(args []string, stdout, stderr io.Writer) error {
-	return errors.New("the run report is not built yet; the session log (JSON Lines) holds every reading and note")
 }

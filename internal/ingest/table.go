@@ -13,7 +13,17 @@ type TableOptions struct {
 	TimeCol  string        // column name (or 1-based number) of the time
 	MassCol  string        // column name (or 1-based number) of the mass
 	TimeUnit time.Duration // unit of an elapsed-time column with none in its header
+	// AllowMoisture accepts a dry-basis moisture (X_db) or moisture ratio
+	// (MR) column when there is no mass column.
+	AllowMoisture bool
 }
+
+// What a table's value column holds.
+const (
+	QuantityMass       = "mass"
+	QuantityMoistureDB = "moisture_db"
+	QuantityMR         = "moisture_ratio"
+)
 
 // Table reads the rows of a CSV or TSV file written by a logger or a
 // spreadsheet: a header row, a time column (RFC 3339 timestamps, or elapsed
@@ -29,6 +39,9 @@ type Table struct {
 	TimeUnit  time.Duration // for elapsed time
 	MassUnit  Unit
 	StableIdx int // a column saying whether the balance had settled; -1 if none
+	// Quantity is what the value column holds: QuantityMass (grams after
+	// the unit), QuantityMoistureDB or QuantityMR (taken as they are).
+	Quantity string
 	Channels  []Channel
 	comma     bool // decimal comma allowed in numbers (; or tab delimited)
 }
@@ -62,8 +75,20 @@ func NewTable(header string, opt TableOptions) (*Table, error) {
 	if tb.TimeIdx, err = pickColumn(tb.Header, opt.TimeCol, isTimeName, "time"); err != nil {
 		return nil, fmt.Errorf("header %q: %w", header, err)
 	}
+	tb.Quantity = QuantityMass
 	if tb.MassIdx, err = pickColumn(tb.Header, opt.MassCol, isMassName, "mass"); err != nil {
-		return nil, fmt.Errorf("header %q: %w", header, err)
+		// No mass: a table of dry-basis moisture or moisture ratio will do
+		// where the caller accepts one (parch report).
+		if opt.MassCol == "" && opt.AllowMoisture {
+			if i, e := pickColumn(tb.Header, "", isMoistureDBName, "moisture"); e == nil {
+				tb.MassIdx, tb.Quantity, err = i, QuantityMoistureDB, nil
+			} else if i, e := pickColumn(tb.Header, "", isMRName, "moisture ratio"); e == nil {
+				tb.MassIdx, tb.Quantity, err = i, QuantityMR, nil
+			}
+		}
+		if err != nil {
+			return nil, fmt.Errorf("header %q: %w", header, err)
+		}
 	}
 	if tb.TimeIdx == tb.MassIdx {
 		return nil, fmt.Errorf("header %q: time and mass cannot be the same column", header)
@@ -79,7 +104,7 @@ func NewTable(header string, opt TableOptions) (*Table, error) {
 	}
 	_, munit := splitUnit(tb.Header[tb.MassIdx])
 	tb.MassUnit = Gram
-	if munit != "" {
+	if munit != "" && tb.Quantity == QuantityMass {
 		u, ok := lookupUnit(munit)
 		if !ok {
 			return nil, fmt.Errorf("header %q: mass column %q has unit %q; expected mg, g, kg, oz or lb", header, tb.Header[tb.MassIdx], munit)
@@ -253,6 +278,25 @@ func isTimeName(base string) int {
 	return 0
 }
 
+func isMoistureDBName(base string) int {
+	switch base {
+	case "x_db", "xdb", "x", "moisture_db", "moisture db", "mc_db", "mc db", "dry_basis", "dry basis", "moisture (db)", "x (db)", "mc":
+		return 2
+	}
+	if strings.Contains(base, "dry basis") || strings.Contains(base, "dry_basis") || strings.HasSuffix(base, "_db") {
+		return 1
+	}
+	return 0
+}
+
+func isMRName(base string) int {
+	switch base {
+	case "mr", "moisture ratio", "moisture_ratio":
+		return 2
+	}
+	return 0
+}
+
 func isMassName(base string) int {
 	switch base {
 	case "mass", "weight", "m", "w", "wt", "net", "net weight", "net_weight", "sample mass", "sample_mass", "reading":
@@ -281,7 +325,8 @@ func pickColumn(header []string, want string, score func(string) int, what strin
 	best, bestScore := -1, 0
 	for i, h := range header {
 		base, _ := splitUnit(h)
-		if s := score(base); s > bestScore {
+		s := max(score(base), score(strings.ToLower(strings.TrimSpace(h))))
+		if s > bestScore {
 			best, bestScore = i, s
 		}
 	}

@@ -196,7 +196,9 @@ func Analyze(s Series, setup Setup, opt Options) (*Result, error) {
 		breaks = append(breaks, st.ElapsedH)
 	}
 	sort.Float64s(breaks)
-	if nSpikes := RejectSpikes(t, pts.NetG, keep, blockH, breaks, floor); nSpikes > 0 {
+	// With fewer than 20 readings a spike cannot be told from the curve:
+	// keep them all.
+	if len(km) >= 20 && RejectSpikes(t, pts.NetG, keep, blockH, breaks, floor) > 0 {
 		for i := range keep {
 			if !keep[i] && pts.Reject[i] == KeepOK {
 				pts.Reject[i] = RejSpike
@@ -220,7 +222,9 @@ func Analyze(s Series, setup Setup, opt Options) (*Result, error) {
 		r.warn("too few usable readings to smooth (%d)", countTrue(keep))
 		return r, nil
 	}
-	m0 := pts.SmoothG[first]
+	// The initial mass is the first kept reading as read: smoothing would
+	// pull it along the steep start of a curve.
+	m0 := pts.NetG[first]
 	if !math.IsNaN(setup.InitialMassG) && s.Kind == SeriesMass {
 		m0 = setup.InitialMassG
 	}

@@ -1,0 +1,221 @@
+package main
+
+import (
+	"encoding/json"
+	"math"
+	"os"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"strings"
+	"testing"
+)
+
+// The keys `parch report --format json` promises (issue contract).
+var contractKeys = []string{
+	"readings", "rejected", "duration_h", "initial_mass_g", "dry_mass_g", "final_mass_g",
+	"final_moisture_wb_pct", "final_moisture_db", "target_moisture_wb_pct", "target_mass_g",
+	"target_reached_h", "projection", "constant_rate", "models", "best_model",
+	"diffusivity_m2_per_s", "end_of_run_h", "removed", "suspected_removals", "notes", "warnings",
+}
+
+func reportJSON(t *testing.T, dir string, args ...string) map[string]any {
+	t.Helper()
+	out, stderr, code := parch(t, dir, append([]string{"report", "--format", "json"}, args...)...)
+	if code != 0 {
+		t.Fatalf("report %v: exit %d: %s", args, code, stderr)
+	}
+	if strings.Contains(out, "NaN") || strings.Contains(out, "Inf") {
+		t.Fatalf("NaN or Inf in the JSON: %s", out)
+	}
+	var m map[string]any
+	if err := json.Unmarshal([]byte(out), &m); err != nil {
+		t.Fatalf("not JSON: %v\n%s", err, out)
+	}
+	for _, k := range contractKeys {
+		if _, ok := m[k]; !ok {
+			t.Errorf("key %q missing", k)
+		}
+	}
+	return m
+}
+
+func num(t *testing.T, m map[string]any, key string) float64 {
+	t.Helper()
+	v, ok := m[key].(float64)
+	if !ok {
+		t.Fatalf("%s = %v, want a number", key, m[key])
+	}
+	return v
+}
+
+// parch simulate, then parch report on its CSV: the simulator's invented
+// constants come back (dry mass 27 g, D 5e-10 m²/s, constant rate ends near
+// 0.71 h); the models carry their published parameter names.
+func TestReportOnSimulatedRun(t *testing.T) {
+	dir := t.TempDir()
+	if _, stderr, code := parch(t, dir, "simulate", "--out", "run.csv"); code != 0 {
+		t.Fatal(stderr)
+	}
+	m := reportJSON(t, dir, "run.csv", "--initial-moisture", "86.5", "--target", "18", "--thickness", "6", "--faces", "2", "--equilibrium", "0.05")
+	if d := num(t, m, "dry_mass_g"); math.Abs(d-27) > 0.05 {
+		t.Errorf("dry mass %v", d)
+	}
+	if d := num(t, m, "diffusivity_m2_per_s"); math.Abs(d-5e-10)/5e-10 > 0.03 {
+		t.Errorf("diffusivity %v", d)
+	}
+	cr, _ := m["constant_rate"].(map[string]any)
+	if cr == nil || math.Abs(num(t, cr, "ends_h")-0.71) > 0.1 {
+		t.Errorf("constant rate %v", m["constant_rate"])
+	}
+	names := map[string][]string{}
+	for _, x := range m["models"].([]any) {
+		mo := x.(map[string]any)
+		var ps []string
+		for k := range mo["params"].(map[string]any) {
+			ps = append(ps, k)
+		}
+		sort.Strings(ps)
+		names[mo["name"].(string)] = ps
+		for _, k := range []string{"r2", "rmse", "chi2", "aic", "converged"} {
+			if _, ok := mo[k]; !ok {
+				t.Errorf("model %s lacks %s", mo["name"], k)
+			}
+		}
+	}
+	want := map[string]string{"lewis": "k", "page": "k,n", "henderson_pabis": "a,k", "logarithmic": "a,c,k", "two_term": "a,b,k0,k1", "midilli": "a,b,k,n"}
+	for name, ps := range want {
+		if strings.Join(names[name], ",") != ps {
+			t.Errorf("model %s params %v, want %s", name, names[name], ps)
+		}
+	}
+	// What was known at hour 3: the projection looks ahead from there.
+	m3 := reportJSON(t, dir, "run.csv", "--initial-moisture", "86.5", "--target", "18", "--equilibrium", "0.05", "--until", "3h")
+	p, _ := m3["projection"].(map[string]any)
+	if p == nil || p["method"] != "exponential_to_asymptote" || math.Abs(num(t, p, "target_h")-7.27) > 0.5 {
+		t.Errorf("projection at 3 h: %v (the run reaches 18 %% at 7.27 h)", m3["projection"])
+	}
+	if num(t, m3, "duration_h") > 3.0001 || m3["target_reached_h"] != nil {
+		t.Errorf("--until 3h analysed %v h, target reached %v", m3["duration_h"], m3["target_reached_h"])
+	}
+}
+
+// Salehi and Inanloodoghouz (2023), Ultrasonics Sonochemistry 100:106633,
+// Table 1, as a CSV of moisture ratio against minutes: Page comes back with
+// k = 0.0530 min^-n (scipy's least-squares value; the paper prints 0.0504)
+// and n = 0.750 (paper 0.761).
+func TestReportOnPublishedMR(t *testing.T) {
+	wd, _ := os.Getwd()
+	csv := filepath.Join(wd, "../../testdata/published/salehi2023_guar_sour_cherry.csv")
+	m := reportJSON(t, t.TempDir(), csv)
+	for _, x := range m["models"].([]any) {
+		mo := x.(map[string]any)
+		if mo["name"] != "page" {
+			continue
+		}
+		ps := mo["params"].(map[string]any)
+		n := ps["n"].(float64)
+		kMin := ps["k"].(float64) / math.Pow(60, n) // hours to minutes
+		if math.Abs(kMin-0.0530)/0.0530 > 0.01 || math.Abs(n-0.750) > 0.005 {
+			t.Errorf("Page k %.4f 1/min^n, n %.4f", kMin, n)
+		}
+	}
+	if m["dry_mass_g"] != nil || m["final_moisture_wb_pct"] != nil {
+		t.Error("a moisture-ratio input must not invent masses or moisture contents")
+	}
+}
+
+// Bad input: a clear message or nulls with reasons, never a panic or NaN.
+func TestReportBadInputs(t *testing.T) {
+	dir := t.TempDir()
+	write := func(name, content string) string {
+		p := filepath.Join(dir, name)
+		os.WriteFile(p, []byte(content), 0o644)
+		return p
+	}
+	var equal, neg strings.Builder
+	equal.WriteString("elapsed_s,mass_g\n")
+	neg.WriteString("elapsed_s,mass_g\n")
+	for i := 0; i < 100; i++ {
+		equal.WriteString(strings.Join([]string{strconv.Itoa(i * 10), "100.00"}, ",") + "\n")
+		neg.WriteString(strings.Join([]string{strconv.Itoa(i * 10), "-5"}, ",") + "\n")
+	}
+	write("equal.csv", equal.String())
+	write("neg.csv", neg.String())
+	write("one.csv", "elapsed_s,mass_g\n0,100\n")
+	write("empty.csv", "")
+	write("header.csv", "elapsed_s,mass_g\n")
+	write("nocols.csv", "a,b\n1,2\n")
+
+	for _, tc := range []struct {
+		args []string
+		warn string
+	}{
+		{[]string{"equal.csv", "--initial-moisture", "80", "--target", "18"}, ""},
+		{[]string{"neg.csv"}, "no usable readings"},
+		{[]string{"one.csv", "--initial-moisture", "80"}, "too few"},
+		{[]string{"equal.csv", "--dry-mass", "150", "--target", "18"}, "not less than the initial mass"},
+		{[]string{"equal.csv", "--initial-moisture", "80", "--target", "90"}, "reached at the start"},
+	} {
+		m := reportJSON(t, dir, tc.args...)
+		if tc.warn != "" {
+			w, _ := json.Marshal(m["warnings"])
+			if !strings.Contains(string(w), tc.warn) {
+				t.Errorf("%v: warnings %s lack %q", tc.args, w, tc.warn)
+			}
+		}
+	}
+	for _, tc := range []struct {
+		args []string
+		code int
+		want string
+	}{
+		{[]string{"report", "empty.csv"}, 1, "empty"},
+		{[]string{"report", "header.csv"}, 1, "no readings"},
+		{[]string{"report", "nocols.csv"}, 1, "no time column"},
+		{[]string{"report", "missing.csv"}, 1, "missing.csv"},
+		{[]string{"report", "equal.csv", "--faces", "3"}, 2, "--faces"},
+		{[]string{"report", "equal.csv", "--initial-moisture", "120"}, 2, "initial moisture"},
+		{[]string{"report", "equal.csv", "--removed", "6h"}, 2, "ELAPSED=GRAMS"},
+		{[]string{"report", "equal.csv", "--until", "soon"}, 2, "--until"},
+		{[]string{"report", "equal.csv", "--target", "18", "--target-db", "0.2"}, 2, "not both"},
+		{[]string{"report"}, 2, "give one"},
+	} {
+		_, stderr, code := parch(t, dir, tc.args...)
+		if code != tc.code || !strings.Contains(stderr, tc.want) {
+			t.Errorf("%v: exit %d, %q; want %d and %q", tc.args, code, stderr, tc.code, tc.want)
+		}
+	}
+}
+
+// Setup recorded in the session log (and notes of removed pieces) is used;
+// flags override it.
+func TestReportUsesSessionSetupAndNotes(t *testing.T) {
+	dir := t.TempDir()
+	log := filepath.Join(dir, "s.jsonl")
+	if _, stderr, code := parch(t, dir, "record", "--demo", "--speed", "0", "--session", log, "--status", "0"); code != 0 {
+		t.Fatal(stderr)
+	}
+	f, _ := os.OpenFile(log, os.O_WRONLY|os.O_APPEND, 0)
+	f.WriteString(`{"type":"setup","t":"2030-01-01T00:00:00.000Z","initial_moisture_wb_pct":86.5,"target_moisture_wb_pct":18}` + "\n")
+	f.Close()
+	if _, stderr, code := parch(t, dir, "note", "--session", log, "--kind", "case_hardening", "tough skin on two rings"); code != 0 {
+		t.Fatal(stderr)
+	}
+	m := reportJSON(t, dir, log)
+	if d := num(t, m, "dry_mass_g"); math.Abs(d-27) > 0.05 {
+		t.Errorf("dry mass from the log's setup: %v", d)
+	}
+	if w := num(t, m, "target_moisture_wb_pct"); math.Abs(w-18) > 1e-9 {
+		t.Errorf("target %v", w)
+	}
+	notes := m["notes"].([]any)
+	if len(notes) != 1 || notes[0].(map[string]any)["kind"] != "case_hardening" {
+		t.Errorf("notes %v", notes)
+	}
+	m2 := reportJSON(t, dir, log, "--dry-mass", "26")
+	if d := num(t, m2, "dry_mass_g"); math.Abs(d-26) > 1e-9 {
+		t.Errorf("--dry-mass must override the log: %v", d)
+	}
+}
+

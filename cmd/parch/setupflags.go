@@ -1,0 +1,143 @@
+package main
+
+import (
+	"flag"
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+	"time"
+
+	"parch/internal/kinetics"
+	"parch/internal/report"
+)
+
+// setupFlags are the run parameters a user can give on the command line;
+// only the flags given override what the session log says.
+type setupFlags struct {
+	fs       *flag.FlagSet
+	vals     map[string]*float64
+	faces    int
+	removed  removals
+	until    string
+	targetDB float64
+}
+
+type removals []kinetics.Removal
+
+func (r *removals) String() string { return fmt.Sprint(*r) }
+
+func (r *removals) Set(s string) error {
+	at, grams, ok := strings.Cut(s, "=")
+	if !ok {
+		return fmt.Errorf("expected ELAPSED=GRAMS like 6h=4.2")
+	}
+	h, err := parseElapsed(at)
+	if err != nil {
+		return err
+	}
+	g, err := strconv.ParseFloat(strings.TrimSpace(grams), 64)
+	if err != nil || !(g > 0) {
+		return fmt.Errorf("grams %q: expected a positive number", grams)
+	}
+	*r = append(*r, kinetics.Removal{ElapsedH: h, MassG: g})
+	return nil
+}
+
+// parseElapsed reads 6h, 90m, 5400s, 1h30m.
+func parseElapsed(s string) (float64, error) {
+	d, err := time.ParseDuration(strings.TrimSpace(s))
+	if err != nil || d < 0 {
+		return 0, fmt.Errorf("elapsed time %q: expected a duration like 6h, 90m or 5400s", s)
+	}
+	return d.Hours(), nil
+}
+
+func (sf *setupFlags) register(fs *flag.FlagSet) {
+	sf.fs = fs
+	sf.vals = map[string]*float64{}
+	num := func(name, key, usage string) {
+		v := new(float64)
+		fs.Float64Var(v, name, 0, usage)
+		sf.vals[name] = v
+		_ = key
+	}
+	num("initial-moisture", report.KeyInitialMoistureWB, "initial moisture, `PCT` wet basis (from an oven test)")
+	num("dry-mass", report.KeyDryMass, "dry solids left at the end, `G` (oven test of the sample); overrides --initial-moisture")
+	num("tare", report.KeyTare, "tare, `G`, subtracted from every reading")
+	num("initial-mass", report.KeyInitialMass, "initial product mass, `G` (default: the first reading)")
+	num("target", report.KeyTargetWB, "target moisture, `PCT` wet basis")
+	fs.Float64Var(&sf.targetDB, "target-db", 0, "target moisture, dry basis (kg water/kg solids), instead of --target")
+	num("equilibrium", report.KeyEquilibriumDB, "equilibrium moisture `X`, dry basis (default 0)")
+	num("area", report.KeyArea, "tray area, `M2`, for the drying flux")
+	num("thickness", report.KeyThickness, "slice thickness, `MM`, for the diffusivity")
+	fs.IntVar(&sf.faces, "faces", 0, "drying faces: 1 on a solid tray, 2 on a mesh (default 2)")
+	num("steady-pct", report.KeySteadyPct, "end of run when the weight changes less than this `PCT` over --steady-window (default 0.5)")
+	num("steady-window", report.KeySteadyWindowH, "window for the end-of-run test, `HOURS` (default 1)")
+	fs.Var(&sf.removed, "removed", "a piece removed, `ELAPSED=GRAMS` like 6h=4.2 (repeatable)")
+	fs.StringVar(&sf.until, "until", "", "analyse only the data up to `ELAPSED` (like 6h): what was known then")
+}
+
+var flagKeys = map[string]string{
+	"initial-moisture": report.KeyInitialMoistureWB, "dry-mass": report.KeyDryMass, "tare": report.KeyTare,
+	"initial-mass": report.KeyInitialMass, "target": report.KeyTargetWB, "equilibrium": report.KeyEquilibriumDB,
+	"area": report.KeyArea, "thickness": report.KeyThickness, "steady-pct": report.KeySteadyPct, "steady-window": report.KeySteadyWindowH,
+}
+
+// params returns the setup keys given as flags.
+func (sf *setupFlags) params() (map[string]float64, error) {
+	out := map[string]float64{}
+	var err error
+	sf.fs.Visit(func(f *flag.Flag) {
+		if key, ok := flagKeys[f.Name]; ok {
+			v := *sf.vals[f.Name]
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				err = usagef("--%s %v: expected a number", f.Name, v)
+			}
+			out[key] = v
+		}
+		switch f.Name {
+		case "faces":
+			if sf.faces != 1 && sf.faces != 2 {
+				err = usagef("--faces %d: expected 1 (solid tray) or 2 (mesh)", sf.faces)
+			}
+			out[report.KeyFaces] = float64(sf.faces)
+		case "target-db":
+			out[report.KeyTargetDB] = sf.targetDB
+		}
+	})
+	if _, wb := out[report.KeyTargetWB]; wb {
+		if _, db := out[report.KeyTargetDB]; db {
+			return nil, usagef("give --target (wet basis %%) or --target-db (dry basis), not both")
+		}
+	}
+	return out, err
+}
+
+// untilH is the --until time in hours, NaN when not given.
+func (sf *setupFlags) untilH() (float64, error) {
+	if sf.until == "" {
+		return math.NaN(), nil
+	}
+	h, err := parseElapsed(sf.until)
+	if err != nil {
+		return 0, usagef("--until: %v", err)
+	}
+	return h, nil
+}
+
+// build merges the log's setup, the notes' removals and the flags.
+func (sf *setupFlags) build(run *report.Run) (kinetics.Setup, error) {
+	setup := kinetics.NewSetup()
+	report.ApplyParams(&setup, run.Params)
+	p, err := sf.params()
+	if err != nil {
+		return setup, err
+	}
+	report.ApplyParams(&setup, p)
+	setup.Removals = append(run.NoteRemovals(), sf.removed...)
+	if err := setup.Validate(); err != nil {
+		return setup, usagef("%v", err)
+	}
+	return setup, nil
+}

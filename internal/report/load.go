@@ -1,0 +1,267 @@
+// Package report turns a recorded run (a session log or a CSV) into the
+// figures parch reports: it loads the readings, notes and setup, runs the
+// kinetics, and writes the summary as JSON or text. It does not change the
+// record; the same inputs always give the same report.
+package report
+
+import (
+	"bufio"
+	"bytes"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"sort"
+	"strings"
+	"time"
+
+	"parch/internal/ingest"
+	"parch/internal/kinetics"
+	"parch/internal/session"
+)
+
+// Run is a recorded run, as read.
+type Run struct {
+	Path     string
+	Format   string    // "session" or "csv"
+	Start    time.Time // time of the first reading (zero for elapsed-only CSV)
+	Series   kinetics.Series
+	TimesMs  []int64 // clock time of each reading, Unix ms (0 when unknown)
+	Channels map[string][]float32
+	Notes    []Note
+	Params   map[string]float64 // setup keys from the log, later ones winning
+	Warnings []string           // lines skipped while reading
+}
+
+// Note is an operator's note placed on the run's timeline.
+type Note struct {
+	ElapsedH float64
+	T        time.Time
+	Kind     string
+	Text     string
+	Value    float64 // NaN when none
+}
+
+// Setup keys understood in a session log's "setup" events and their flags.
+const (
+	KeyTare              = "tare_g"
+	KeyInitialMass       = "initial_mass_g"
+	KeyInitialMoistureWB = "initial_moisture_wb_pct"
+	KeyDryMass           = "dry_mass_g"
+	KeyTargetWB          = "target_moisture_wb_pct"
+	KeyTargetDB          = "target_moisture_db"
+	KeyEquilibriumDB     = "equilibrium_db"
+	KeyArea              = "area_m2"
+	KeyThickness         = "thickness_mm"
+	KeyFaces             = "faces"
+	KeySteadyPct         = "steady_pct"
+	KeySteadyWindowH     = "steady_window_h"
+)
+
+// KindPieceRemoved is the note kind whose value (grams) is a removal.
+const KindPieceRemoved = "piece_removed"
+
+// Load reads a session log, or a CSV/TSV with the file source's rules (and
+// a dry-basis moisture or moisture-ratio column in place of the mass).
+func Load(path string, table ingest.TableOptions) (*Run, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, fmt.Errorf("open %s: %w", path, err)
+	}
+	defer f.Close()
+	br := bufio.NewReaderSize(f, 64<<10)
+	head, _ := br.Peek(1)
+	if len(head) == 0 {
+		return nil, fmt.Errorf("%s is empty: expected a parch session log or a CSV with a header row", path)
+	}
+	if head[0] == '{' {
+		return loadSession(path, br)
+	}
+	table.AllowMoisture = true
+	return loadTable(path, br, table)
+}
+
+func loadSession(path string, r io.Reader) (*Run, error) {
+	log, err := session.Read(r, path)
+	if err != nil {
+		return nil, err
+	}
+	run := &Run{Path: path, Format: "session", Params: map[string]float64{}, Warnings: log.Warnings, Channels: log.Readings.Channels}
+	rd := &log.Readings
+	n := rd.Len()
+	run.TimesMs = rd.TimeMs
+	run.Series = kinetics.Series{TimeH: make([]float64, n), Value: rd.MassG, Stable: rd.Stable}
+	if n > 0 {
+		t0 := rd.TimeMs[0]
+		run.Start = time.UnixMilli(t0).UTC()
+		for i, ms := range rd.TimeMs {
+			run.Series.TimeH[i] = float64(ms-t0) / 3.6e6
+		}
+	}
+	for _, s := range log.Setups {
+		for k, v := range s.Params {
+			if f, ok := v.(float64); ok {
+				run.Params[k] = f
+			}
+		}
+	}
+	for _, e := range log.Notes {
+		at := e.T
+		if !e.ReadingT.IsZero() {
+			at = e.ReadingT
+		}
+		nt := Note{T: at, Kind: e.Kind, Text: e.Text, Value: math.NaN(), ElapsedH: math.NaN()}
+		if !run.Start.IsZero() {
+			nt.ElapsedH = at.Sub(run.Start).Hours()
+		}
+		if e.Value != nil {
+			nt.Value = *e.Value
+		}
+		run.Notes = append(run.Notes, nt)
+	}
+	sort.SliceStable(run.Notes, func(i, j int) bool { return run.Notes[i].T.Before(run.Notes[j].T) })
+	return run, nil
+}
+
+func loadTable(path string, br *bufio.Reader, opt ingest.TableOptions) (*Run, error) {
+	run := &Run{Path: path, Format: "csv", Params: map[string]float64{}, Channels: map[string][]float32{}}
+	var tb *ingest.Table
+	lineNo := 0
+	var t0 time.Time
+	var e0 time.Duration
+	first := true
+	skipped := 0
+	for {
+		line, err := br.ReadString('\n')
+		if len(line) > 0 {
+			lineNo++
+			line = strings.TrimRight(line, "\r\n")
+			if tb == nil {
+				if tb, err = ingest.NewTable(line, opt); err != nil {
+					return nil, fmt.Errorf("%s: %w", path, err)
+				}
+				continue
+			}
+			if strings.TrimSpace(line) == "" {
+				continue
+			}
+			row, derr := tb.Decode(line)
+			if derr != nil {
+				skipped++
+				if skipped <= 10 {
+					run.Warnings = append(run.Warnings, fmt.Sprintf("%s: line %d skipped: %v", path, lineNo, derr))
+				}
+				continue
+			}
+			if first {
+				first = false
+				t0, e0 = row.Time, row.Elapsed
+				if !t0.IsZero() {
+					run.Start = t0.UTC()
+				}
+			}
+			var h float64
+			var ms int64
+			if !row.Time.IsZero() {
+				h = row.Time.Sub(t0).Hours()
+				ms = row.Time.UnixMilli()
+			} else {
+				h = (row.Elapsed - e0).Hours()
+			}
+			st := int8(0)
+			switch row.Stable {
+			case ingest.Stable:
+				st = 1
+			case ingest.Unstable:
+				st = -1
+			}
+			run.Series.TimeH = append(run.Series.TimeH, h)
+			run.Series.Value = append(run.Series.Value, row.MassG)
+			run.Series.Stable = append(run.Series.Stable, st)
+			run.TimesMs = append(run.TimesMs, ms)
+			n := len(run.Series.TimeH)
+			for name, v := range row.Channels {
+				col := run.Channels[name]
+				for len(col) < n-1 {
+					col = append(col, float32(math.NaN()))
+				}
+				run.Channels[name] = append(col, float32(v))
+			}
+		}
+		if err != nil {
+			if errors.Is(err, io.EOF) {
+				break
+			}
+			return nil, fmt.Errorf("read %s: %w", path, err)
+		}
+	}
+	if tb == nil {
+		return nil, fmt.Errorf("%s: no header row: expected a CSV with a header like elapsed_s,mass_g", path)
+	}
+	if skipped > 10 {
+		run.Warnings = append(run.Warnings, fmt.Sprintf("%s: %d lines skipped in all", path, skipped))
+	}
+	n := len(run.Series.TimeH)
+	for name, col := range run.Channels {
+		for len(col) < n {
+			col = append(col, float32(math.NaN()))
+		}
+		run.Channels[name] = col
+	}
+	switch tb.Quantity {
+	case ingest.QuantityMoistureDB:
+		run.Series.Kind = kinetics.SeriesMoistureDB
+	case ingest.QuantityMR:
+		run.Series.Kind = kinetics.SeriesMR
+	}
+	return run, nil
+}
+
+// ApplyParams sets setup values from a log's setup keys.
+func ApplyParams(s *kinetics.Setup, p map[string]float64) {
+	set := func(key string, dst *float64) {
+		if v, ok := p[key]; ok {
+			*dst = v
+		}
+	}
+	set(KeyTare, &s.TareG)
+	set(KeyInitialMass, &s.InitialMassG)
+	set(KeyInitialMoistureWB, &s.InitialMoistureWB)
+	set(KeyDryMass, &s.DryMassG)
+	set(KeyTargetWB, &s.TargetWBPct)
+	set(KeyTargetDB, &s.TargetDB)
+	set(KeyEquilibriumDB, &s.EquilibriumDB)
+	set(KeyArea, &s.AreaM2)
+	set(KeyThickness, &s.ThicknessMM)
+	set(KeySteadyPct, &s.SteadyPct)
+	set(KeySteadyWindowH, &s.SteadyWindowH)
+	if v, ok := p[KeyFaces]; ok {
+		s.Faces = int(v)
+	}
+	if _, ok := p[KeyTargetDB]; ok {
+		if _, wb := p[KeyTargetWB]; !wb {
+			s.TargetWBPct = math.NaN()
+		}
+	}
+}
+
+// NoteRemovals returns the removals recorded as piece_removed notes.
+func (r *Run) NoteRemovals() []kinetics.Removal {
+	var out []kinetics.Removal
+	for _, n := range r.Notes {
+		if n.Kind == KindPieceRemoved && n.Value > 0 && !math.IsNaN(n.ElapsedH) {
+			out = append(out, kinetics.Removal{ElapsedH: n.ElapsedH, MassG: n.Value})
+		}
+	}
+	return out
+}
+
+// truncateNote keeps text short enough for one line.
+func truncateNote(s string, n int) string {
+	s = string(bytes.TrimSpace([]byte(s)))
+	if len([]rune(s)) <= n {
+		return s
+	}
+	return string([]rune(s)[:n-1]) + "…"
+}
