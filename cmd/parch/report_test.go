@@ -218,4 +218,3 @@ func TestReportUsesSessionSetupAndNotes(t *testing.T) {
 		t.Errorf("--dry-mass must override the log: %v", d)
 	}
 }
-

@@ -42,8 +42,8 @@ type Table struct {
 	// Quantity is what the value column holds: QuantityMass (grams after
 	// the unit), QuantityMoistureDB or QuantityMR (taken as they are).
 	Quantity string
-	Channels  []Channel
-	comma     bool // decimal comma allowed in numbers (; or tab delimited)
+	Channels []Channel
+	comma    bool // decimal comma allowed in numbers (; or tab delimited)
 }
 
 // Channel is a numeric column kept beside the mass.
