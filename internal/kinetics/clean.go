@@ -298,7 +298,8 @@ func robustSlope(t, m []float64) float64 {
 	return (median(m[len(m)-h:]) - median(m[:h])) / dt
 }
 
-// median of v; v is not changed.
+// median of v; v is not changed. Quickselect on a copy: linear time on
+// average, which matters for the long windows of dense logs.
 func median(v []float64) float64 {
 	n := len(v)
 	if n == 0 {
@@ -306,9 +307,56 @@ func median(v []float64) float64 {
 	}
 	c := make([]float64, n)
 	copy(c, v)
-	sort.Float64s(c)
 	if n%2 == 1 {
-		return c[n/2]
+		return selectK(c, n/2)
 	}
-	return (c[n/2-1] + c[n/2]) / 2
+	hi := selectK(c, n/2)
+	// the lower middle is the largest of the lower part
+	lo := c[0]
+	for _, x := range c[:n/2] {
+		lo = math.Max(lo, x)
+	}
+	return (lo + hi) / 2
+}
+
+// selectK puts the k-th smallest of a at a[k], smaller ones before it, and
+// returns it (Hoare's selection, median-of-three pivots).
+func selectK(a []float64, k int) float64 {
+	lo, hi := 0, len(a)-1
+	for hi > lo {
+		mid := lo + (hi-lo)/2
+		if a[mid] < a[lo] {
+			a[mid], a[lo] = a[lo], a[mid]
+		}
+		if a[hi] < a[lo] {
+			a[hi], a[lo] = a[lo], a[hi]
+		}
+		if a[hi] < a[mid] {
+			a[hi], a[mid] = a[mid], a[hi]
+		}
+		pivot := a[mid]
+		i, j := lo, hi
+		for i <= j {
+			for a[i] < pivot {
+				i++
+			}
+			for a[j] > pivot {
+				j--
+			}
+			if i <= j {
+				a[i], a[j] = a[j], a[i]
+				i++
+				j--
+			}
+		}
+		switch {
+		case k <= j:
+			hi = j
+		case k >= i:
+			lo = i
+		default:
+			return a[k]
+		}
+	}
+	return a[k]
 }

@@ -32,6 +32,18 @@ func FindConstantRate(t, smooth, rate []float64, rateSD, windowH float64) *Const
 	if len(idx) < 10 {
 		return nil
 	}
+	// Dense logs: every step-th reading is plenty for a rate that is
+	// already smoothed over many readings.
+	if step := len(idx) / 4000; step > 1 {
+		thin := idx[:0:0]
+		for k := 0; k < len(idx); k += step {
+			thin = append(thin, idx[k])
+		}
+		if thin[len(thin)-1] != idx[len(idx)-1] {
+			thin = append(thin, idx[len(idx)-1])
+		}
+		idx = thin
+	}
 	first, last := idx[0], idx[len(idx)-1]
 	lost := smooth[first] - smooth[last]
 	if !(lost > 0) {

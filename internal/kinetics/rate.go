@@ -13,6 +13,11 @@ import (
 // with uneven spacing, gaps or `at` at the newest point (one-sided) it is
 // the same idea done right.
 func LocalPoly(t, y []float64, at float64, degree int) (value, slope float64, err error) {
+	return localPolyW(t, y, nil, at, degree)
+}
+
+// localPolyW is LocalPoly with a weight per point (nil: all 1).
+func localPolyW(t, y, w []float64, at float64, degree int) (value, slope float64, err error) {
 	if degree < 1 || degree > 4 {
 		return 0, 0, fmt.Errorf("kinetics: polynomial degree %d: expected 1 to 4", degree)
 	}
@@ -21,9 +26,9 @@ func LocalPoly(t, y []float64, at float64, degree int) (value, slope float64, er
 		return 0, 0, fmt.Errorf("kinetics: %d points for a degree-%d fit: %w", len(t), degree, ErrTooFewPoints)
 	}
 	// Scale time to about ±1 for conditioning.
-	scale := 0.0
-	for _, ti := range t {
-		scale = math.Max(scale, math.Abs(ti-at))
+	scale := math.Abs(t[0] - at)
+	if d := math.Abs(t[len(t)-1] - at); d > scale {
+		scale = d // t is in time order: the farthest point is at an end
 	}
 	if scale == 0 {
 		return 0, 0, fmt.Errorf("kinetics: all points at one time: %w", ErrTooFewPoints)
@@ -32,7 +37,11 @@ func LocalPoly(t, y []float64, at float64, degree int) (value, slope float64, er
 	var pw [9]float64
 	for i, ti := range t {
 		u := (ti - at) / scale
-		pw[0] = 1
+		wi := 1.0
+		if w != nil {
+			wi = w[i]
+		}
+		pw[0] = wi
 		for k := 1; k <= 2*degree; k++ {
 			pw[k] = pw[k-1] * u
 		}
@@ -99,7 +108,10 @@ func RateWindow(rate, sd, dt, minH, maxH float64) float64 {
 // SmoothRate returns the smoothed mass and the drying rate −dm/dt (g/h) at
 // each kept point, from a local quadratic in time over an adaptive window
 // (RateWindow), one-sided where the data end so the newest value does not
-// lag. Rejected points get NaN.
+// lag. Rejected points get NaN. Dense data (more than maxFitBins readings)
+// are first averaged into time bins, fitted with the bins' counts as
+// weights, and the fit is carried to each reading along its local slope:
+// the windows then hold tens of bins, not thousands of readings.
 func SmoothRate(t, m []float64, keep []bool, sd float64) (smooth, rate []float64) {
 	n := len(t)
 	smooth = make([]float64, n)
@@ -115,49 +127,104 @@ func SmoothRate(t, m []float64, keep []bool, sd float64) (smooth, rate []float64
 	if k < 3 {
 		return
 	}
-	span := t[idx[k-1]] - t[idx[0]]
-	dt := span / float64(k-1)
 	if !(sd > 0) {
 		sd = 1e-3
 	}
+	bt, bm, bw := make([]float64, 0, min(k, maxFitBins)), make([]float64, 0, min(k, maxFitBins)), []float64(nil)
+	span := t[idx[k-1]] - t[idx[0]]
+	if k <= maxFitBins || span <= 0 {
+		for _, i := range idx {
+			bt = append(bt, t[i])
+			bm = append(bm, m[i])
+		}
+	} else {
+		width := span / maxFitBins
+		t0 := t[idx[0]]
+		sumT, sumM, c, bin := 0.0, 0.0, 0, 0
+		for _, i := range idx {
+			b := min(int((t[i]-t0)/width), maxFitBins-1)
+			if b != bin && c > 0 {
+				bt, bm, bw = append(bt, sumT/float64(c)), append(bm, sumM/float64(c)), append(bw, float64(c))
+				sumT, sumM, c = 0, 0, 0
+			}
+			bin = b
+			sumT += t[i]
+			sumM += m[i]
+			c++
+		}
+		bt, bm, bw = append(bt, sumT/float64(c)), append(bm, sumM/float64(c)), append(bw, float64(c))
+		sd /= math.Sqrt(float64(k) / float64(len(bt))) // the noise of a bin mean
+	}
+	bs, br := smoothPoints(bt, bm, bw, sd)
+	if bw == nil {
+		for j, i := range idx {
+			smooth[i], rate[i] = bs[j], br[j]
+		}
+		return
+	}
+	// Carry the bin fits to the readings: linear between bin centres.
+	j := 0
+	for _, i := range idx {
+		for j+1 < len(bt) && bt[j+1] < t[i] {
+			j++
+		}
+		if j+1 >= len(bt) || t[i] <= bt[j] {
+			smooth[i] = bs[j] - br[j]*(t[i]-bt[j])
+			rate[i] = br[j]
+			continue
+		}
+		f := (t[i] - bt[j]) / (bt[j+1] - bt[j])
+		smooth[i] = bs[j] + f*(bs[j+1]-bs[j])
+		rate[i] = br[j] + f*(br[j+1]-br[j])
+	}
+	return
+}
+
+// maxFitBins bounds the points the smoothing fits work on.
+const maxFitBins = 4000
+
+// smoothPoints is SmoothRate on points in time order, with optional weights.
+func smoothPoints(t, m, w []float64, sd float64) (smooth, rate []float64) {
+	k := len(t)
+	smooth, rate = nanSlice(k), nanSlice(k)
+	idx := make([]int, k)
+	for i := range idx {
+		idx[i] = i
+	}
+	span := t[k-1] - t[0]
+	dt := span / float64(k-1)
 	minH := 3 * dt
 	maxH := math.Max(math.Min(span/6, 2), minH)
-	// A coarse rate from wide windows guides the window at each point.
-	coarse := func(j int) float64 {
-		h := maxH
-		lo, hi := window(t, idx, j, h)
-		tt, mm := gather(t, m, idx, lo, hi)
-		_, s, err := LocalPoly(tt, mm, t[idx[j]], 1)
-		if err != nil {
-			return math.NaN()
+	sub := func(lo, hi int) []float64 {
+		if w == nil {
+			return nil
 		}
-		return -s
+		return w[lo:hi]
 	}
+	// A coarse rate from wide windows guides the window at each point.
 	step := max(1, k/200)
 	guide := make([]float64, 0, k/step+2)
 	for j := 0; j < k; j += step {
-		guide = append(guide, coarse(j))
+		lo, hi := window(t, idx, j, maxH)
+		g := math.NaN()
+		if _, s, err := localPolyW(t[lo:hi], m[lo:hi], sub(lo, hi), t[j], 1); err == nil {
+			g = -s
+		}
+		guide = append(guide, g)
 	}
-	tt := make([]float64, 0, 256)
-	mm := make([]float64, 0, 256)
 	for j := 0; j < k; j++ {
 		g := guide[min(j/step, len(guide)-1)]
 		h := RateWindow(g, sd, dt, minH, maxH)
 		lo, hi := window(t, idx, j, h)
-		tt, mm = tt[:0], mm[:0]
-		for q := lo; q < hi; q++ {
-			tt = append(tt, t[idx[q]])
-			mm = append(mm, m[idx[q]])
-		}
 		deg := 2
-		if len(tt) < 5 {
+		if hi-lo < 5 {
 			deg = 1
 		}
-		v, s, err := LocalPoly(tt, mm, t[idx[j]], deg)
+		v, s, err := localPolyW(t[lo:hi], m[lo:hi], sub(lo, hi), t[j], deg)
 		if err != nil {
 			continue
 		}
-		smooth[idx[j]], rate[idx[j]] = v, -s
+		smooth[j], rate[j] = v, -s
 	}
 	return
 }
@@ -194,14 +261,4 @@ func window(t []float64, idx []int, j int, h float64) (int, int) {
 		}
 	}
 	return lo, hi
-}
-
-func gather(t, m []float64, idx []int, lo, hi int) ([]float64, []float64) {
-	tt := make([]float64, 0, hi-lo)
-	mm := make([]float64, 0, hi-lo)
-	for q := lo; q < hi; q++ {
-		tt = append(tt, t[idx[q]])
-		mm = append(mm, m[idx[q]])
-	}
-	return tt, mm
 }

@@ -108,3 +108,30 @@ func TestRateWindowGrowsAsRateFalls(t *testing.T) {
 		t.Errorf("rate sd at the chosen window %v, want 0.1 g/h", sd)
 	}
 }
+
+func TestMedian(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 4))
+	for n := 1; n < 60; n++ {
+		v := make([]float64, n)
+		for i := range v {
+			v[i] = float64(rng.IntN(10)) // many ties
+		}
+		s := append([]float64(nil), v...)
+		sortFloats(s)
+		want := s[n/2]
+		if n%2 == 0 {
+			want = (s[n/2-1] + s[n/2]) / 2
+		}
+		if got := median(v); got != want {
+			t.Fatalf("median(%v) = %v, want %v", v, got, want)
+		}
+	}
+}
+
+func sortFloats(s []float64) {
+	for i := 1; i < len(s); i++ {
+		for j := i; j > 0 && s[j] < s[j-1]; j-- {
+			s[j], s[j-1] = s[j-1], s[j]
+		}
+	}
+}

@@ -59,6 +59,9 @@ const (
 	KeySteadyWindowH     = "steady_window_h"
 )
 
+// TableOptionsNone reads a CSV with every column guessed from its header.
+var TableOptionsNone = ingest.TableOptions{}
+
 // KindPieceRemoved is the note kind whose value (grams) is a removal.
 const KindPieceRemoved = "piece_removed"
 
