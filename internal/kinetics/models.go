@@ -177,8 +177,28 @@ func FitModel(m *Model, t, mr []float64) (*Fit, error) {
 	if len(t) < np+1 {
 		return nil, fmt.Errorf("kinetics: %s needs at least %d points, has %d: %w", m.Name, np+1, len(t), ErrTooFewPoints)
 	}
+	starts := m.start(t, mr)
+	// Many points: try the starts on an even subsample, then refine only the
+	// best on all the points (the multistart is what costs).
+	if len(t) > 4*subsampleFit && len(starts) > 1 {
+		st, sm := subsample(t, mr, subsampleFit)
+		var pick *lmResult
+		for _, p0 := range starts {
+			if !finite(p0...) {
+				continue
+			}
+			r := levenbergMarquardt(lmProblem{f: m.f, grad: m.grad}, st, sm, p0, 500)
+			if !math.IsNaN(r.SSE) && (pick == nil || r.SSE < pick.SSE) {
+				rr := r
+				pick = &rr
+			}
+		}
+		if pick != nil {
+			starts = [][]float64{pick.P}
+		}
+	}
 	var best *lmResult
-	for _, p0 := range m.start(t, mr) {
+	for _, p0 := range starts {
 		if !finite(p0...) {
 			continue
 		}
@@ -230,6 +250,19 @@ func FitModel(m *Model, t, mr []float64) (*Fit, error) {
 		}
 	}
 	return f, nil
+}
+
+// subsampleFit is the size of the subsample the starting values are tried on.
+const subsampleFit = 1000
+
+func subsample(t, v []float64, n int) ([]float64, []float64) {
+	step := float64(len(t)-1) / float64(n-1)
+	st, sv := make([]float64, n), make([]float64, n)
+	for i := 0; i < n; i++ {
+		j := int(math.Round(float64(i) * step))
+		st[i], sv[i] = t[j], v[j]
+	}
+	return st, sv
 }
 
 // FitAll fits the six models; models that cannot be fitted are left out
