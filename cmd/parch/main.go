@@ -41,11 +41,11 @@ var commands []command
 
 func init() {
 	commands = []command{
-		{"demo", "run the built-in demo (an invented apple-ring run) into a session log, with live status", runDemo},
+		{"demo", "the live dashboard on the built-in demo (an invented apple-ring run), recorded to a session log", runDemo},
 		{"record", "record a balance, a growing file or the demo into a session log, headless", runRecord},
 		{"note", "add a note (bend test, case hardening, a piece removed...) to a session log", runNote},
 		{"simulate", "write an invented drying run as CSV, for trying the file source", runSimulate},
-		{"watch", "live dashboard (not built yet: use record, or demo for live status lines)", runWatch},
+		{"watch", "the live dashboard: record a source, or watch a log another parch records", runWatch},
 		{"report", "analyse a session log or a CSV: moisture, rate, periods, models, diffusivity, projection", runReport},
 	}
 }
@@ -154,8 +154,4 @@ func parseFlags(fs *flag.FlagSet, args []string) ([]string, error) {
 		pos = append(pos, args[0])
 		args = args[1:]
 	}
-}
-
-func runWatch(args []string, stdout, stderr io.Writer) error {
-	return errors.New("the live dashboard is not built yet; for now use 'parch record' (headless, status lines) or 'parch demo'")
 }

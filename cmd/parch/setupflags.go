@@ -21,6 +21,7 @@ type setupFlags struct {
 	removed  removals
 	until    string
 	targetDB float64
+	defaults map[string]float64 // values used when neither the log nor a flag gives one
 }
 
 type removals []kinetics.Removal

@@ -1,6 +1,10 @@
 package ingest
 
-import "time"
+import (
+	"time"
+
+	"parch/internal/session"
+)
 
 // Event kinds other than KindReading name what happened to the source. They
 // are the words the session log uses for its "source" events.
@@ -15,6 +19,7 @@ const (
 	KindUnparseable = "unparseable"
 	KindLineCut     = "line_cut"
 	KindWarning     = "warning"
+	KindNote        = "note" // a note in a followed session log (Note is set)
 )
 
 // Event is what a source hands on: a reading, or something that happened to
@@ -28,6 +33,7 @@ type Event struct {
 	Raw      string             // the text as received, when there was one
 	Channels map[string]float64 // other measured values (air_temp_c, rh_pct...)
 	Detail   string             // for non-readings: what happened, in words
+	Note     *session.Event     // KindNote: the note as the followed log has it
 }
 
 // FromLine turns a parsed balance line into an event.

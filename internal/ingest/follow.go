@@ -308,7 +308,18 @@ func (sessionDecoder) decode(lines []string, mtime time.Time) []Event {
 			evs = append(evs, Event{T: mtime, Kind: KindUnparseable, Raw: clipRaw(l), Detail: err.Error()})
 			continue
 		}
-		if e.Type != session.TypeReading {
+		switch e.Type {
+		case session.TypeNote:
+			evs = append(evs, Event{T: e.T, Kind: KindNote, Note: e})
+			continue
+		case session.TypeSource:
+			switch e.Event {
+			case session.SourceLost, session.SourceBack:
+				evs = append(evs, Event{T: e.T, Kind: e.Event, Detail: e.Detail})
+			}
+			continue
+		case session.TypeReading:
+		default:
 			continue
 		}
 		st := StabilityUnknown

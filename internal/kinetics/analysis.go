@@ -299,8 +299,11 @@ func Analyze(s Series, setup Setup, opt Options) (*Result, error) {
 	hPeak := RateWindow(peakRate, r.NoiseSD, dt, 3*dt, math.Max(math.Min(span/6, 2), 3*dt))
 	rateSD := math.Sqrt(1.5 * r.NoiseSD * r.NoiseSD * dt / math.Pow(hPeak, 3))
 	if cr := FindConstantRate(t, pts.SmoothG, maskNaN(pts.RateG, keep), rateSD, hPeak); cr != nil {
-		if solids != nil {
+		if solids != nil && !cr.Ongoing {
 			cr.CriticalDB = pts.SmoothG[indexAt(t, keep, cr.EndH)]/solids.at(cr.EndH) - 1
+		}
+		if cr.Ongoing {
+			r.warn("still in the constant-rate period: its end and the critical moisture are not known yet")
 		}
 		r.ConstantRate = cr
 	}
@@ -343,6 +346,9 @@ func Analyze(s Series, setup Setup, opt Options) (*Result, error) {
 			if r.ConstantRate != nil {
 				from = r.ConstantRate.EndH
 			}
+			if r.ConstantRate != nil && r.ConstantRate.Ongoing {
+				from = math.Inf(1) // no falling-rate data yet
+			}
 			var dtT, dMR []float64
 			for i := range fitT {
 				if fitT[i] >= from && fitMR[i] >= 0.02 {
@@ -381,7 +387,7 @@ func Analyze(s Series, setup Setup, opt Options) (*Result, error) {
 				pm = append(pm, pts.NetG[i]*sEnd/solids.at(t[i])) // as if on today's solids
 			}
 		}
-		constantNow := r.ConstantRate != nil && r.ConstantRate.EndH >= nowH-2*hPeak
+		constantNow := r.ConstantRate != nil && r.ConstantRate.Ongoing
 		floorG := sEnd * (1 + xe)
 		r.Projection = Project(pt, pm, from, nowH, r.TargetMassG, floorG, sEnd, pts.RateG[last], constantNow)
 		if r.Projection.Why != "" {

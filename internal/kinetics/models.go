@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strings"
 )
 
 // Model is a thin-layer drying model MR(t) (DOMAIN.md table, names and
@@ -239,7 +240,13 @@ func FitModel(m *Model, t, mr []float64) (*Fit, error) {
 	f.RMSE = math.Sqrt(f.SSE / n)
 	f.Chi2 = f.SSE / (n - float64(np))
 	f.AIC = n*math.Log(math.Max(f.SSE, 1e-300)/n) + 2*float64(np)
-	if m.Name == "two_term" {
+	for i, name := range m.Params {
+		if strings.HasPrefix(name, "k") && f.P[i] < 0 {
+			f.Degenerate = true
+			f.Note = fmt.Sprintf("not physical: rate constant %s is negative", name)
+		}
+	}
+	if m.Name == "two_term" && !f.Degenerate {
 		a, k0, b, k1 := f.P[0], f.P[1], f.P[2], f.P[3]
 		if math.Abs(k0-k1) <= 1e-3*math.Max(math.Abs(k0), math.Abs(k1)) || math.Abs(a) < 1e-6 || math.Abs(b) < 1e-6 {
 			f.Degenerate = true

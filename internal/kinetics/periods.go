@@ -7,6 +7,9 @@ type ConstantRate struct {
 	StartH, EndH float64
 	RateGPerH    float64 // water loss rate over the period
 	CriticalDB   float64 // dry-basis moisture where it ends; NaN without dry solids
+	// Ongoing: the rate is still constant at the newest reading, so the
+	// period has not ended yet (EndH is the newest reading's time).
+	Ongoing bool
 }
 
 // Tolerances for calling a stretch of the rate curve constant (common
@@ -111,8 +114,12 @@ func FindConstantRate(t, smooth, rate []float64, rateSD, windowH float64) *Const
 	}
 	s, e := idx[lo], idx[hi]
 	dur := t[e] - t[s]
-	if dur < 4*windowH || smooth[s]-smooth[e] < plateauMinFrac*lost {
+	ongoing := t[last]-t[e] <= 2*windowH
+	// A plateau that runs to the newest reading has no end yet: the share of
+	// water it removed cannot be judged, only its length.
+	if dur < 4*windowH || !ongoing && smooth[s]-smooth[e] < plateauMinFrac*lost {
 		return nil
 	}
-	return &ConstantRate{StartH: t[s], EndH: t[e], RateGPerH: (smooth[s] - smooth[e]) / dur, CriticalDB: math.NaN()}
+	return &ConstantRate{StartH: t[s], EndH: t[e], RateGPerH: (smooth[s] - smooth[e]) / dur, CriticalDB: math.NaN(),
+		Ongoing: t[last]-t[e] <= 2*windowH}
 }

@@ -49,6 +49,9 @@ type Recorder struct {
 	Log   *session.Writer
 	Stall time.Duration
 	Now   func() time.Time
+	// OnBatch, when set, gets every batch after it is written (for the
+	// dashboard, through a Mailbox); it must not block.
+	OnBatch func([]ingest.Event)
 
 	stats       Stats
 	started     time.Time
@@ -97,6 +100,8 @@ func (r *Recorder) Write(batch []ingest.Event) error {
 			}
 			r.stats.Readings++
 			r.stats.LastMassG, r.stats.LastT, r.stats.LastSeen = e.MassG, e.T, now
+		case ingest.KindNote:
+			continue // notes in a followed log stay in that log
 		case ingest.KindUnparseable, ingest.KindLineCut:
 			r.stats.Unparseable++
 			if !r.allowNoisy(now) {
@@ -193,6 +198,9 @@ func (r *Recorder) Run(ctx context.Context, src Source, statusEvery time.Duratio
 				if werr := r.Write(b); werr != nil {
 					return werr
 				}
+				if r.OnBatch != nil {
+					r.OnBatch(b)
+				}
 			default:
 				return err
 			}
@@ -207,6 +215,9 @@ func (r *Recorder) Run(ctx context.Context, src Source, statusEvery time.Duratio
 		case b := <-out:
 			if err := r.Write(b); err != nil {
 				return err
+			}
+			if r.OnBatch != nil {
+				r.OnBatch(b)
 			}
 		case err := <-srcErr:
 			if err != nil {

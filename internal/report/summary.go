@@ -75,10 +75,11 @@ type ProjectionOut struct {
 
 // ConstantOut is the constant-rate period.
 type ConstantOut struct {
-	RateGPerH  Num `json:"rate_g_per_h"`
-	StartsH    Num `json:"starts_h"`
-	EndsH      Num `json:"ends_h"`
-	CriticalDB Num `json:"critical_moisture_db"`
+	RateGPerH  Num  `json:"rate_g_per_h"`
+	StartsH    Num  `json:"starts_h"`
+	EndsH      Num  `json:"ends_h"`
+	CriticalDB Num  `json:"critical_moisture_db"`
+	Ongoing    bool `json:"ongoing"`
 }
 
 // ModelOut is one fitted thin-layer model.
@@ -159,7 +160,10 @@ func Build(run *Run, res *kinetics.Result, setup kinetics.Setup, untilH float64)
 		}
 	}
 	if cr := res.ConstantRate; cr != nil {
-		s.ConstantRate = &ConstantOut{RateGPerH: Num(cr.RateGPerH), StartsH: Num(cr.StartH), EndsH: Num(cr.EndH), CriticalDB: Num(cr.CriticalDB)}
+		s.ConstantRate = &ConstantOut{RateGPerH: Num(cr.RateGPerH), StartsH: Num(cr.StartH), EndsH: Num(cr.EndH), CriticalDB: Num(cr.CriticalDB), Ongoing: cr.Ongoing}
+		if cr.Ongoing {
+			s.ConstantRate.EndsH = Num(math.NaN())
+		}
 	} else if res.Readings >= 10 {
 		s.Warnings = append(s.Warnings, "no constant-rate period: the drying rate did not hold steady (many fruits have none)")
 	}

@@ -1,0 +1,272 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"os/signal"
+	"path/filepath"
+	"syscall"
+	"time"
+
+	tea "github.com/charmbracelet/bubbletea"
+
+	"parch/internal/ingest"
+	"parch/internal/kinetics"
+	"parch/internal/recorder"
+	"parch/internal/report"
+	"parch/internal/session"
+	"parch/tui"
+)
+
+func runWatch(args []string, stdout, stderr io.Writer) error {
+	fs := newFlagSet("watch", "watch [--port DEVICE | --follow FILE | --demo] [--session FILE] [setup flags]", stderr)
+	var src sourceFlags
+	src.register(fs)
+	var sf setupFlags
+	sf.register(fs)
+	airMin := fs.Float64("air-min", math.NaN(), "alert when the air temperature falls below this, °C")
+	airMax := fs.Float64("air-max", math.NaN(), "alert when the air temperature rises above this, °C")
+	pos, err := parseFlags(fs, args)
+	if err != nil {
+		return err
+	}
+	if len(pos) > 0 {
+		return usagef("unexpected argument %q", pos[0])
+	}
+	return watch(&src, &sf, *airMin, *airMax, stdout, stderr)
+}
+
+func runDemo(args []string, stdout, stderr io.Writer) error {
+	fs := newFlagSet("demo", "demo [--session FILE] [--seed N] [--speed X] [setup flags]", stderr)
+	var src sourceFlags
+	src.register(fs)
+	var sf setupFlags
+	sf.register(fs)
+	airMin := fs.Float64("air-min", 55, "alert when the air temperature falls below this, °C")
+	airMax := fs.Float64("air-max", 65, "alert when the air temperature rises above this, °C")
+	pos, err := parseFlags(fs, args)
+	if err != nil {
+		return err
+	}
+	if len(pos) > 0 {
+		return usagef("unexpected argument %q", pos[0])
+	}
+	if src.port != "" || src.follow != "" {
+		return usagef("demo runs the built-in invented run; for a balance or a file use 'parch watch --port' or '--follow'")
+	}
+	src.demo = true
+	// The demo's invented apple rings: what an operator would have entered.
+	defaults := map[string]float64{report.KeyInitialMoistureWB: 86.5, report.KeyTargetWB: 18, report.KeyThickness: 6, report.KeyFaces: 2, report.KeyEquilibriumDB: 0.05}
+	sf.defaults = defaults
+	return watch(&src, &sf, *airMin, *airMax, stdout, stderr)
+}
+
+// watch runs the dashboard: recording a source into the session log, or
+// attached to a log another parch is recording.
+func watch(src *sourceFlags, sf *setupFlags, airMin, airMax float64, stdout, stderr io.Writer) error {
+	now := time.Now()
+	hasSource := src.port != "" || src.follow != "" || src.demo
+	if !hasSource && src.session == "" {
+		return usagef("choose a source (--port DEVICE, --follow FILE or --demo), or --session FILE to watch a log being recorded")
+	}
+	flagParams, err := sf.params()
+	if err != nil {
+		return err
+	}
+	params := map[string]float64{}
+	for k, v := range sf.defaults {
+		params[k] = v
+	}
+	for k, v := range flagParams {
+		params[k] = v
+	}
+	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
+	defer stop()
+
+	opt := tui.Options{Stall: src.stall, AirLow: airMin, AirHigh: airMax,
+		Bell: func() { os.Stdout.Write([]byte("\a")) }}
+	if math.IsNaN(airMin) != math.IsNaN(airMax) {
+		return usagef("--air-min and --air-max go together")
+	}
+	var finish func(runErr error) error
+	setup := kinetics.NewSetup()
+
+	if !hasSource {
+		// Attach: follow the log; notes go in with single appends.
+		if err := session.CheckHeader(src.session); err != nil {
+			return err
+		}
+		log, err := session.Load(src.session)
+		if err != nil {
+			return err
+		}
+		logParams := map[string]float64{}
+		for _, s := range log.Setups {
+			for k, v := range s.Params {
+				if f, ok := v.(float64); ok {
+					logParams[k] = f
+				}
+			}
+		}
+		report.ApplyParams(&setup, logParams)
+		report.ApplyParams(&setup, flagParams)
+		if len(flagParams) > 0 {
+			if err := session.AppendOnce(src.session, &session.Event{Type: session.TypeSetup, T: now, Params: anyMap(flagParams)}); err != nil {
+				return err
+			}
+		}
+		events := make(chan []ingest.Event, 4)
+		f := &ingest.Follow{Path: src.session}
+		go func() {
+			defer close(events)
+			if err := f.Run(ctx, events); err != nil {
+				events <- []ingest.Event{{T: time.Now(), Kind: ingest.KindWarning, Detail: err.Error()}}
+			}
+		}()
+		opt.Events, opt.Notes, opt.Title = events, appendOnce(src.session), filepath.Base(src.session)+" · watching"
+		finish = func(error) error { return nil }
+	} else {
+		source, what, err := src.build(now)
+		if err != nil {
+			return err
+		}
+		path := src.session
+		if path == "" {
+			path = defaultSessionPath(now)
+		}
+		var earlier *session.Log
+		if _, err := os.Stat(path); err == nil {
+			if earlier, err = session.Load(path); err != nil {
+				return err
+			}
+		}
+		w, _, err := session.CreateOrOpen(path, program, now)
+		if err != nil {
+			return err
+		}
+		logParams := map[string]float64{}
+		if earlier != nil {
+			for _, s := range earlier.Setups {
+				for k, v := range s.Params {
+					if f, ok := v.(float64); ok {
+						logParams[k] = f
+					}
+				}
+			}
+		}
+		report.ApplyParams(&setup, params)
+		report.ApplyParams(&setup, logParams) // what the log says beats the demo's defaults
+		report.ApplyParams(&setup, flagParams)
+		record := map[string]float64{}
+		for k, v := range params {
+			if old, ok := logParams[k]; !ok || old != v {
+				if _, fromFlag := flagParams[k]; fromFlag || !ok {
+					record[k] = v
+				}
+			}
+		}
+		if len(record) > 0 {
+			if err := w.Append(&session.Event{Type: session.TypeSetup, T: now, Params: anyMap(record)}); err != nil {
+				w.Close()
+				return err
+			}
+		}
+		mb := recorder.NewMailbox()
+		if earlier != nil {
+			mb.Put(replay(earlier))
+		}
+		rec := &recorder.Recorder{Log: w, Stall: src.stall, OnBatch: mb.Put}
+		recDone := make(chan error, 1)
+		recCtx, cancelRec := context.WithCancel(ctx)
+		go func() {
+			err := rec.Run(recCtx, source, 0, nil)
+			if err != nil {
+				detail := "source ended"
+				if !errors.Is(err, recorder.ErrSourceEnded) {
+					detail = err.Error()
+				}
+				mb.Put([]ingest.Event{{T: time.Now(), Kind: ingest.KindWarning, Detail: detail}})
+			}
+			mb.Close()
+			recDone <- err
+		}()
+		opt.Events, opt.Notes, opt.Recording, opt.Title = mb.Chan(), w, true, filepath.Base(path)+" · "+what
+		finish = func(uiErr error) error {
+			cancelRec()
+			runErr := <-recDone
+			detail := "recording stopped with the dashboard"
+			if errors.Is(runErr, recorder.ErrSourceEnded) {
+				detail, runErr = "source ended", nil
+			} else if runErr != nil {
+				detail = "recording stopped: " + runErr.Error()
+			}
+			if w.Err() == nil {
+				w.Append(&session.Event{Type: session.TypeSource, T: time.Now(), Event: session.SourceStopped, Detail: detail})
+			}
+			cerr := w.Close()
+			fmt.Fprintf(stdout, "%s: %d readings this time; session log %s\n", detail, rec.Stats().Readings, path)
+			if runErr != nil {
+				return runErr
+			}
+			return cerr
+		}
+	}
+	opt.Setup = setup
+	p := tea.NewProgram(tui.New(opt), tea.WithAltScreen(), tea.WithContext(ctx))
+	_, uiErr := p.Run()
+	if errors.Is(uiErr, tea.ErrProgramKilled) || errors.Is(uiErr, context.Canceled) {
+		uiErr = nil
+	}
+	ferr := finish(uiErr)
+	if uiErr != nil {
+		return uiErr
+	}
+	return ferr
+}
+
+// replay turns a log read back into events for the dashboard.
+func replay(l *session.Log) []ingest.Event {
+	r := &l.Readings
+	out := make([]ingest.Event, 0, r.Len()+len(l.Notes))
+	for i := 0; i < r.Len(); i++ {
+		st := ingest.StabilityUnknown
+		switch r.Stable[i] {
+		case 1:
+			st = ingest.Stable
+		case -1:
+			st = ingest.Unstable
+		}
+		var ch map[string]float64
+		for name, col := range r.Channels {
+			if v := col[i]; !math.IsNaN(float64(v)) {
+				if ch == nil {
+					ch = map[string]float64{}
+				}
+				ch[name] = float64(v)
+			}
+		}
+		out = append(out, ingest.Event{T: time.UnixMilli(r.TimeMs[i]).UTC(), Kind: ingest.KindReading, MassG: r.MassG[i], Stable: st, Channels: ch})
+	}
+	for i := range l.Notes {
+		n := l.Notes[i]
+		out = append(out, ingest.Event{T: n.T, Kind: ingest.KindNote, Note: &n})
+	}
+	return out
+}
+
+func anyMap(m map[string]float64) map[string]any {
+	out := make(map[string]any, len(m))
+	for k, v := range m {
+		out[k] = v
+	}
+	return out
+}
+
+// appendOnce writes notes to a log another process records.
+type appendOnce string
+
+func (a appendOnce) Append(e *session.Event) error { return session.AppendOnce(string(a), e) }

@@ -1,0 +1,399 @@
+package tui
+
+import (
+	"fmt"
+	"math"
+	"strings"
+
+	"github.com/charmbracelet/lipgloss"
+	"github.com/guptarohit/asciigraph"
+
+	"parch/internal/kinetics"
+)
+
+// Curve views of the moisture chart.
+var moistViews = []struct{ name, unit string }{
+	{"mass", "g"},
+	{"moisture, wet basis", "%"},
+	{"moisture, dry basis", "kg/kg"},
+	{"moisture ratio", ""},
+}
+
+// kept reports whether reading i is used (the analysis's verdict where it
+// has one, the balance's flag for newer readings).
+func (m *Model) kept(i int) bool {
+	if m.res != nil && i < m.resN && i < len(m.res.Points.Reject) {
+		return m.res.Points.Reject[i] == kinetics.KeepOK
+	}
+	return m.stable[i] >= 0
+}
+
+// solidsAt is the dry solids at reading i, NaN when unknown.
+func (m *Model) solidsAt(i int) float64 {
+	if m.res == nil || math.IsNaN(m.res.DryMassG) {
+		return math.NaN()
+	}
+	if i < m.resN && !math.IsNaN(m.res.Points.X[i]) && m.res.Points.NetG[i] > 0 {
+		return m.res.Points.NetG[i] / (1 + m.res.Points.X[i])
+	}
+	return m.res.DryMassG
+}
+
+// inView converts a net mass on solids s to the current view's unit.
+func (m *Model) inView(net, s float64) float64 {
+	switch m.moistView {
+	case 0:
+		return net
+	case 1:
+		x := net/s - 1
+		return 100 * x / (1 + x)
+	case 2:
+		return net/s - 1
+	default:
+		x := net/s - 1
+		x0, xe := m.res.InitialMoistureDB, m.setup.EquilibriumDB
+		return (x - xe) / (x0 - xe)
+	}
+}
+
+// viewValue is reading i in the current view (NaN when unknown).
+func (m *Model) viewValue(i int) float64 {
+	net := m.raw[i] - m.setup.TareG
+	if m.moistView == 0 {
+		return net
+	}
+	s := m.solidsAt(i)
+	if math.IsNaN(s) || (m.moistView == 3 && (m.res == nil || math.IsNaN(m.res.InitialMoistureDB))) {
+		return math.NaN()
+	}
+	return m.inView(net, s)
+}
+
+// columns averages the kept readings into n columns over [t0, t1].
+func columns(n int, t0, t1 float64, count int, at func(i int) (float64, float64, bool)) []float64 {
+	sum := make([]float64, n)
+	cnt := make([]int, n)
+	for i := 0; i < count; i++ {
+		t, v, ok := at(i)
+		if !ok || math.IsNaN(v) || math.IsInf(v, 0) {
+			continue
+		}
+		c := int(float64(n-1) * (t - t0) / (t1 - t0))
+		if c < 0 || c >= n {
+			continue
+		}
+		sum[c] += v
+		cnt[c]++
+	}
+	out := make([]float64, n)
+	for c := range out {
+		out[c] = math.NaN()
+		if cnt[c] > 0 {
+			out[c] = sum[c] / float64(cnt[c])
+		}
+	}
+	return out
+}
+
+func finiteCount(v []float64) int {
+	n := 0
+	for _, x := range v {
+		if !math.IsNaN(x) && !math.IsInf(x, 0) {
+			n++
+		}
+	}
+	return n
+}
+
+// plot draws series with asciigraph in a box of w×h cells (including the
+// y labels). It never panics: fewer than two finite points give a message.
+func plot(series [][]float64, w, h int, chars []asciigraph.CharSet, colors []asciigraph.AnsiColor, yfmt string) []string {
+	n := 0
+	for _, s := range series {
+		n += finiteCount(s)
+	}
+	if len(series) == 0 || finiteCount(series[0]) < 2 || h < 2 {
+		return nil
+	}
+	opts := []asciigraph.Option{
+		asciigraph.Height(h - 1), asciigraph.Width(len(series[0])), asciigraph.Offset(2), // the label sits in cell 0, the axis in cell 1
+		asciigraph.YAxisValueFormatter(func(v float64) string { return fmt.Sprintf(yfmt, v) }),
+		asciigraph.SeriesChars(chars...), asciigraph.SeriesColors(colors...),
+	}
+	out := asciigraph.PlotMany(series, opts...)
+	lines := strings.Split(out, "\n")
+	for i, l := range lines {
+		if lipgloss.Width(l) > w {
+			lines[i] = truncate(l, w)
+		}
+	}
+	return lines
+}
+
+// truncate cuts a line to w cells (ANSI-aware enough for our lines).
+func truncate(s string, w int) string {
+	if lipgloss.Width(s) <= w {
+		return s
+	}
+	r := []rune(s)
+	for len(r) > 0 && lipgloss.Width(string(r)) > w {
+		r = r[:len(r)-1]
+	}
+	return string(r) + "\x1b[0m"
+}
+
+// yFormat picks a fixed-width label format for values up to max.
+func yFormat(lo, hi float64) (string, int) {
+	a := math.Max(math.Abs(lo), math.Abs(hi))
+	switch {
+	case a >= 1000:
+		return "%7.0f", 7
+	case a >= 100:
+		return "%6.1f", 6
+	case a >= 10:
+		return "%6.2f", 6
+	default:
+		return "%6.3f", 6
+	}
+}
+
+func seriesRange(series [][]float64) (float64, float64) {
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, s := range series {
+		for _, v := range s {
+			if !math.IsNaN(v) && !math.IsInf(v, 0) {
+				lo, hi = math.Min(lo, v), math.Max(hi, v)
+			}
+		}
+	}
+	return lo, hi
+}
+
+// timeAxis is a row of elapsed-hour labels under a chart of cols columns
+// starting at column left.
+func timeAxis(left, cols int, t0, t1 float64) string {
+	row := []rune(strings.Repeat(" ", left+cols))
+	step := niceStep((t1 - t0) / math.Max(float64(cols)/10, 1))
+	for t := math.Ceil(t0/step) * step; t <= t1+1e-9; t += step {
+		c := left + int(math.Round(float64(cols-1)*(t-t0)/(t1-t0)))
+		label := []rune(axisLabel(t, step))
+		if c+len(label) > len(row) {
+			continue
+		}
+		copy(row[c:], label)
+	}
+	return strings.TrimRight(string(row), " ")
+}
+
+// markRow puts a ^ under each column where a note was made.
+func markRow(left, cols int, t0, t1 float64, at []float64) string {
+	row := []rune(strings.Repeat(" ", left+cols))
+	any := false
+	for _, t := range at {
+		if math.IsNaN(t) || t < t0 || t > t1 {
+			continue
+		}
+		c := left + int(math.Round(float64(cols-1)*(t-t0)/(t1-t0)))
+		if c < len(row) {
+			row[c] = '^'
+			any = true
+		}
+	}
+	if !any {
+		return ""
+	}
+	return strings.TrimRight(string(row), " ") + "  notes"
+}
+
+func niceStep(raw float64) float64 {
+	if !(raw > 0) {
+		return 1
+	}
+	p := math.Pow(10, math.Floor(math.Log10(raw)))
+	for _, f := range []float64{1, 2, 5, 10} {
+		if f*p >= raw {
+			return f * p
+		}
+	}
+	return 10 * p
+}
+
+// axisLabel writes an axis time with the precision its step needs.
+func axisLabel(h, step float64) string {
+	switch {
+	case step >= 1:
+		return fmt.Sprintf("%.0fh", h)
+	case step >= 0.1:
+		return fmt.Sprintf("%.1fh", h)
+	default:
+		return fmt.Sprintf("%.0fmin", h*60)
+	}
+}
+
+// moistureChart draws the moisture curve with its reference lines, the
+// projected course and the note marks, in w×h cells.
+func (m *Model) moistureChart(w, h int) []string {
+	view := moistViews[m.moistView]
+	title := m.styles.Heading.Render(view.name) + m.styles.Dim.Render(" (m: switch)  ─ data  ╌ target  ═ dry solids  · projected")
+	lines := []string{truncate(title, w)}
+	n := len(m.th)
+	if n < 2 {
+		return append(lines, m.styles.Dim.Render("waiting for readings..."))
+	}
+	if m.moistView != 0 && (m.res == nil || math.IsNaN(m.res.DryMassG)) {
+		return append(lines, m.styles.Dim.Render("needs the initial moisture or the dry mass (u: setup)"))
+	}
+	now := m.th[n-1]
+	t1 := now
+	p := kinetics.Projection{}
+	if m.res != nil {
+		p = m.res.Projection
+		// Show the projected course to the target, up to two days ahead.
+		if p.Method != kinetics.ProjNone && p.Method != kinetics.ProjReached && p.TargetH > now && p.TargetH < now+48 {
+			t1 = math.Max(t1, p.TargetH*1.05)
+		}
+	}
+	if t1 <= 0 {
+		t1 = 1e-3
+	}
+	_, labW := yFormat(0, 1)
+	cols := w - labW - 3
+	rows := h - 3 // title, axis labels, note marks
+	if cols < 10 || rows < 3 {
+		return lines
+	}
+	data := columns(cols, 0, t1, n, func(i int) (float64, float64, bool) { return m.th[i], m.viewValue(i), m.kept(i) })
+	flat := func(v float64) []float64 {
+		s := make([]float64, cols)
+		for i := range s {
+			s[i] = v
+		}
+		return s
+	}
+	nan := flat(math.NaN())
+	target, solids, proj := nan, nan, nan
+	if m.res != nil && !math.IsNaN(m.res.TargetMassG) {
+		target = flat(m.inView(m.res.TargetMassG, m.res.DryMassG))
+	}
+	if m.res != nil && m.moistView == 0 && !math.IsNaN(m.res.DryMassG) {
+		solids = flat(m.res.DryMassG)
+	}
+	if m.res != nil && p.TargetH > now && (p.Method == kinetics.ProjExponential || p.Method == kinetics.ProjEquilibrium || p.Method == kinetics.ProjLinear) {
+		proj = m.projected(cols, now, t1, p)
+	}
+	series := [][]float64{data, target, solids, proj}
+	lo, hi := seriesRange(series)
+	yfmt, labW2 := yFormat(lo, hi)
+	cols2 := w - labW2 - 3
+	if cols2 != cols {
+		// label width changed with the values: keep the layout, pad instead
+		_ = cols2
+	}
+	chars := []asciigraph.CharSet{{}, {Horizontal: "╌"}, {Horizontal: "═"}, {Horizontal: "·", VerticalLine: ":", ArcDownRight: "·", ArcDownLeft: "·", ArcUpRight: "·", ArcUpLeft: "·"}}
+	colors := []asciigraph.AnsiColor{asciigraph.Default, asciigraph.Red, asciigraph.Blue, asciigraph.Green}
+	lines = append(lines, plot(series, w, rows, chars, colors, yfmt)...)
+	left := labW2 + 2
+	lines = append(lines, m.styles.Dim.Render(timeAxis(left, cols, 0, t1)))
+	var marks []float64
+	for _, nt := range m.notes {
+		marks = append(marks, nt.elapsedH)
+	}
+	if row := markRow(left, cols, 0, t1, marks); row != "" {
+		lines = append(lines, row)
+	}
+	return lines
+}
+
+// projected is the projected course from now to the target, in view units.
+func (m *Model) projected(cols int, now, t1 float64, p kinetics.Projection) []float64 {
+	out := make([]float64, cols)
+	mNow := m.lastGoodNet()
+	s := m.res.DryMassG
+	k := math.NaN()
+	if !math.IsNaN(p.AsymptoteG) && mNow > p.AsymptoteG && m.res.TargetMassG > p.AsymptoteG {
+		k = math.Log((mNow-p.AsymptoteG)/(m.res.TargetMassG-p.AsymptoteG)) / (p.TargetH - now)
+	}
+	for c := range out {
+		out[c] = math.NaN()
+		t := t1 * float64(c) / float64(cols-1)
+		if t < now || t > p.TargetH*1.0001 {
+			continue
+		}
+		var mass float64
+		if math.IsNaN(k) {
+			mass = mNow + (m.res.TargetMassG-mNow)*(t-now)/(p.TargetH-now)
+		} else {
+			mass = p.AsymptoteG + (mNow-p.AsymptoteG)*math.Exp(-k*(t-now))
+		}
+		out[c] = m.inView(mass, s)
+	}
+	return out
+}
+
+// lastGoodNet is the newest kept net mass (smoothed when known).
+func (m *Model) lastGoodNet() float64 {
+	if !math.IsNaN(m.lastGood.SmoothG) {
+		return m.lastGood.SmoothG
+	}
+	for i := len(m.raw) - 1; i >= 0; i-- {
+		if m.kept(i) {
+			return m.raw[i] - m.setup.TareG
+		}
+	}
+	return math.NaN()
+}
+
+// rateChart draws the drying rate against time, or against dry-basis
+// moisture (the classic drying-rate curve), in w×h cells.
+func (m *Model) rateChart(w, h int) []string {
+	name := "drying rate, g/h, against time"
+	if m.rateView == 1 {
+		name = "drying rate, g/h, against moisture (dry basis)"
+	}
+	lines := []string{truncate(m.styles.Heading.Render(name)+m.styles.Dim.Render(" (v: switch)"), w)}
+	if m.res == nil || m.resN < 10 {
+		return append(lines, m.styles.Dim.Render("waiting for enough readings..."))
+	}
+	_, labW := yFormat(0, 100)
+	cols := w - labW - 3
+	rows := h - 2
+	if cols < 10 || rows < 3 {
+		return lines
+	}
+	pts := &m.res.Points
+	n := m.resN
+	if m.rateView == 0 {
+		t1 := math.Max(m.th[n-1], 1e-3)
+		data := columns(cols, 0, t1, n, func(i int) (float64, float64, bool) { return m.th[i], pts.RateG[i], m.kept(i) })
+		lo, hi := seriesRange([][]float64{data})
+		yfmt, lw := yFormat(lo, hi)
+		lines = append(lines, plot([][]float64{data}, w, rows, nil, nil, yfmt)...)
+		return append(lines, m.styles.Dim.Render(timeAxis(lw+2, cols, 0, t1)))
+	}
+	if math.IsNaN(m.res.DryMassG) {
+		return append(lines, m.styles.Dim.Render("needs the initial moisture or the dry mass (u: setup)"))
+	}
+	xlo, xhi := math.Inf(1), math.Inf(-1)
+	for i := 0; i < n; i++ {
+		if m.kept(i) && !math.IsNaN(pts.X[i]) {
+			xlo, xhi = math.Min(xlo, pts.X[i]), math.Max(xhi, pts.X[i])
+		}
+	}
+	if !(xhi > xlo) {
+		return lines
+	}
+	data := columns(cols, xlo, xhi, n, func(i int) (float64, float64, bool) { return pts.X[i], pts.RateG[i], m.kept(i) })
+	lo, hi := seriesRange([][]float64{data})
+	yfmt, lw := yFormat(lo, hi)
+	lines = append(lines, plot([][]float64{data}, w, rows, nil, nil, yfmt)...)
+	axis := []rune(strings.Repeat(" ", lw+2+cols))
+	for _, f := range []float64{0, 0.25, 0.5, 0.75, 1} {
+		x := xlo + f*(xhi-xlo)
+		c := lw + 2 + int(f*float64(cols-1))
+		l := []rune(fmt.Sprintf("%.2f", x))
+		if c+len(l) <= len(axis) {
+			copy(axis[c:], l)
+		}
+	}
+	return append(lines, m.styles.Dim.Render(strings.TrimRight(string(axis), " ")+" X"))
+}

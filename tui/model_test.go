@@ -1,0 +1,332 @@
+package tui
+
+import (
+	"errors"
+	"flag"
+	"math"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+
+	tea "github.com/charmbracelet/bubbletea"
+	"github.com/charmbracelet/lipgloss"
+	"github.com/muesli/termenv"
+
+	"parch/internal/ingest"
+	"parch/internal/kinetics"
+	"parch/internal/session"
+	"parch/internal/simulate"
+)
+
+// updating reports whether -update was given (the flag belongs to the
+// golden-file helper that teatest brings in).
+func updating() bool {
+	f := flag.Lookup("update")
+	return f != nil && f.Value.String() == "true"
+}
+
+var start = time.Date(2026, 12, 2, 8, 0, 0, 0, time.UTC)
+
+func TestMain(m *testing.M) {
+	time.Local = time.UTC // clock times on screen do not depend on the machine
+	lipgloss.SetColorProfile(termenv.Ascii)
+	os.Exit(m.Run())
+}
+
+// memSink keeps notes in memory; fail makes every write fail.
+type memSink struct {
+	events []session.Event
+	fail   error
+}
+
+func (s *memSink) Append(e *session.Event) error {
+	if s.fail != nil {
+		return s.fail
+	}
+	s.events = append(s.events, *e)
+	return nil
+}
+
+// demoSetup is what an operator would enter for the invented apple rings.
+func demoSetup() kinetics.Setup {
+	s := kinetics.NewSetup()
+	s.InitialMoistureWB, s.TargetWBPct, s.ThicknessMM, s.Faces, s.EquilibriumDB = 86.5, 18, 6, 2, 0.05
+	return s
+}
+
+// simEvents are the first hours of the invented demo run as source events.
+func simEvents(t *testing.T, hours float64) []ingest.Event {
+	t.Helper()
+	mod, err := simulate.NewModel(simulate.AppleRings())
+	if err != nil {
+		t.Fatal(err)
+	}
+	var out []ingest.Event
+	mod.Run(1, func(s simulate.Sample) bool {
+		if s.ElapsedS/3600 > hours {
+			return false
+		}
+		st := ingest.Stable
+		if !s.Stable {
+			st = ingest.Unstable
+		}
+		out = append(out, ingest.Event{T: start.Add(time.Duration(s.ElapsedS * 1e9)), Kind: ingest.KindReading,
+			MassG: s.MassG, Stable: st, Raw: s.Raw, Channels: map[string]float64{"air_temp_c": s.AirTempC}})
+		return true
+	})
+	return out
+}
+
+func newTestModel(sink NoteSink, now time.Time) Model {
+	return New(Options{Title: "test.jsonl · demo", Recording: true, Notes: sink, Setup: demoSetup(),
+		Now: func() time.Time { return now }, AirLow: 55, AirHigh: 65, TickEvery: -1})
+}
+
+// step runs Update and then the commands it returns (analysis, note
+// writes), feeding their messages back, as the program would. Clock ticks
+// and source reads are left out: tests drive those themselves.
+func step(t *testing.T, m Model, msg tea.Msg) Model {
+	t.Helper()
+	next, cmd := m.Update(msg)
+	m = next.(Model)
+	for _, c := range flatten(cmd) {
+		done := make(chan tea.Msg, 1)
+		go func() { done <- c() }()
+		select {
+		case out := <-done:
+			switch out.(type) {
+			case nil, tickMsg, tea.QuitMsg:
+				continue
+			}
+			m = step(t, m, out)
+		case <-time.After(5 * time.Second):
+			t.Fatal("a command did not return")
+		}
+	}
+	return m
+}
+
+func flatten(cmd tea.Cmd) []tea.Cmd {
+	if cmd == nil {
+		return nil
+	}
+	done := make(chan tea.Msg, 1)
+	go func() { done <- cmd() }()
+	select {
+	case out := <-done:
+		if b, ok := out.(tea.BatchMsg); ok {
+			var all []tea.Cmd
+			for _, c := range b {
+				all = append(all, flatten(c)...)
+			}
+			return all
+		}
+		return []tea.Cmd{func() tea.Msg { return out }}
+	case <-time.After(5 * time.Second):
+		panic("a command did not return")
+	}
+}
+
+var ansi = regexp.MustCompile("\x1b\\[[0-9;?]*[a-zA-Z]")
+
+func plain(s string) string { return ansi.ReplaceAllString(s, "") }
+
+func TestReadingsNotesAndFigures(t *testing.T) {
+	sink := &memSink{}
+	now := start.Add(5 * time.Hour)
+	m := newTestModel(sink, now)
+	m = step(t, m, tea.WindowSizeMsg{Width: 80, Height: 24})
+	m = step(t, m, eventsMsg(simEvents(t, 4)))
+	if m.res == nil || m.resN != len(m.th) {
+		t.Fatalf("no analysis after the readings (resN %d of %d)", m.resN, len(m.th))
+	}
+	v := plain(m.View())
+	for _, want := range []string{"● live", "elapsed", "4:00 h", "moisture", "% wb", "rate", "g/h", "falling rate", "projected", "air", "°C"} {
+		if !strings.Contains(v, want) {
+			t.Errorf("screen lacks %q:\n%s", want, v)
+		}
+	}
+	// A quick tag is written at once, stamped with the newest reading's time.
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("b")})
+	if len(sink.events) != 1 || sink.events[0].Kind != kindBendPass || !sink.events[0].ReadingT.Equal(start.Add(4*time.Hour)) || !sink.events[0].T.Equal(now) {
+		t.Fatalf("bend test note: %+v", sink.events)
+	}
+	// A removed piece asks for grams; text with a degree sign goes in whole.
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("r")})
+	if m.mode != modeNumber {
+		t.Fatalf("r should ask for grams, mode %v", m.mode)
+	}
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("abc")})
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyEnter})
+	if len(sink.events) != 1 || !strings.Contains(plain(m.View()), "not a number") {
+		t.Fatalf("a bad number must be refused with a message; notes %d", len(sink.events))
+	}
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyEsc})
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("r")})
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("4.2")})
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyEnter})
+	if len(sink.events) != 2 || sink.events[1].Kind != kindRemoved || sink.events[1].Value == nil || *sink.events[1].Value != 4.2 {
+		t.Fatalf("removal note: %+v", sink.events)
+	}
+	if len(m.res.Removed) != 1 || m.res.Removed[0].MassG != 4.2 {
+		t.Errorf("the removal was not applied to the analysis: %+v", m.res.Removed)
+	}
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("n")})
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("edges leathery, 60 °C")})
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyEnter})
+	if len(sink.events) != 3 || sink.events[2].Text != "edges leathery, 60 °C" {
+		t.Fatalf("free note: %+v", sink.events)
+	}
+	v = plain(m.View())
+	for _, want := range []string{"bend test passed", "piece removed 4.20 g", "edges leathery"} {
+		if !strings.Contains(v, want) {
+			t.Errorf("notes pane lacks %q", want)
+		}
+	}
+	// q asks first while recording; any other key stays.
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("q")})
+	if m.mode != modeQuit || !strings.Contains(plain(m.View()), "Quit?") {
+		t.Fatal("q while recording must ask first")
+	}
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("x")})
+	if m.mode != modeNormal {
+		t.Fatal("any other key should stay")
+	}
+}
+
+// A failed write shows the error and keeps the text for a retry.
+func TestNoteWriteFailureKeepsText(t *testing.T) {
+	sink := &memSink{fail: errors.New("disk full")}
+	m := newTestModel(sink, start)
+	m = step(t, m, eventsMsg(simEvents(t, 0.5)))
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("n")})
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("skins split")})
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyEnter})
+	if v := plain(m.View()); !strings.Contains(v, "not saved: disk full") {
+		t.Fatalf("no error on screen:\n%s", v)
+	}
+	if m.input.Value() != "skins split" || len(m.notes) != 0 {
+		t.Fatalf("text not kept (%q) or note shown as saved (%d)", m.input.Value(), len(m.notes))
+	}
+	sink.fail = nil
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("n")})
+	m.input.SetValue("skins split")
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyEnter})
+	if len(sink.events) != 1 {
+		t.Fatal("retry did not save")
+	}
+}
+
+func TestSourceStatesAndAlerts(t *testing.T) {
+	now := start.Add(time.Hour)
+	m := newTestModel(&memSink{}, now)
+	m = step(t, m, tea.WindowSizeMsg{Width: 80, Height: 24})
+	if !strings.Contains(plain(m.View()), "waiting") {
+		t.Error("no waiting state before readings")
+	}
+	m = step(t, m, eventsMsg(simEvents(t, 0.2)))
+	m = step(t, m, eventsMsg{{T: now, Kind: ingest.KindLost, Detail: "serial /dev/ttyUSB0: device closed or unplugged; retrying"}})
+	if v := plain(m.View()); !strings.Contains(v, "SOURCE LOST") || !strings.Contains(v, "! lost since") {
+		t.Errorf("lost source not shown:\n%s", v)
+	}
+	m = step(t, m, eventsMsg{{T: now, Kind: ingest.KindBack}})
+	m.seen = now.Add(-time.Minute)
+	m = step(t, m, tickMsg(now))
+	if v := plain(m.View()); !strings.Contains(v, "STALLED") {
+		t.Errorf("stall not shown:\n%s", v)
+	}
+	// air outside the band
+	hot := simEvents(t, 0.001)[:1]
+	hot[0].T = start.Add(13 * time.Minute)
+	hot[0].Channels = map[string]float64{"air_temp_c": 71.5}
+	m = step(t, m, eventsMsg(hot))
+	if v := plain(m.View()); !strings.Contains(v, "AIR 71.5 °C outside 55–65") {
+		t.Errorf("air alert not shown:\n%s", v)
+	}
+}
+
+func TestSetupFormRecordsAndRecomputes(t *testing.T) {
+	sink := &memSink{}
+	m := New(Options{Title: "t", Notes: sink, Setup: kinetics.NewSetup(), Now: func() time.Time { return start }, TickEvery: -1})
+	m = step(t, m, tea.WindowSizeMsg{Width: 80, Height: 24})
+	m = step(t, m, eventsMsg(simEvents(t, 3)))
+	if !math.IsNaN(m.res.DryMassG) {
+		t.Fatal("dry mass known without setup")
+	}
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("u")})
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("86.5")})
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyTab})
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyTab})
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("18")})
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyEnter})
+	if len(sink.events) != 1 || sink.events[0].Type != session.TypeSetup || sink.events[0].Params["initial_moisture_wb_pct"] != 86.5 || sink.events[0].Params["target_moisture_wb_pct"] != 18.0 {
+		t.Fatalf("setup event %+v", sink.events)
+	}
+	if math.Abs(m.res.DryMassG-27) > 0.05 {
+		t.Errorf("dry mass after setup %v, want 27 g", m.res.DryMassG)
+	}
+	// A bad value is refused with the field named.
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("u")})
+	m.form.inputs[0].SetValue("150")
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyEnter})
+	if m.mode != modeSetup || !strings.Contains(m.form.err, "initial moisture") {
+		t.Errorf("150 %% accepted: %q", m.form.err)
+	}
+}
+
+func TestSmallTerminal(t *testing.T) {
+	m := newTestModel(&memSink{}, start)
+	m = step(t, m, tea.WindowSizeMsg{Width: 60, Height: 15})
+	m = step(t, m, eventsMsg(simEvents(t, 1)))
+	v := plain(m.View())
+	if !strings.Contains(v, "terminal is 60x15") || !strings.Contains(v, "80x24") {
+		t.Errorf("small terminal not explained:\n%s", v)
+	}
+	for i, l := range strings.Split(v, "\n") {
+		if lipgloss.Width(l) > 60 {
+			t.Errorf("line %d wider than the terminal: %q", i, l)
+		}
+	}
+}
+
+// Golden screens at 80x24 and 160x48, colour pinned off.
+func TestGoldenViews(t *testing.T) {
+	for _, size := range [][2]int{{80, 24}, {160, 48}} {
+		name := filepath.Join("testdata", "dashboard_"+strconv.Itoa(size[0])+"x"+strconv.Itoa(size[1])+".golden")
+		t.Run(name, func(t *testing.T) {
+			sink := &memSink{}
+			m := newTestModel(sink, start.Add(5*time.Hour))
+			m = step(t, m, tea.WindowSizeMsg{Width: size[0], Height: size[1]})
+			evs := simEvents(t, 4)
+			m = step(t, m, eventsMsg(evs[:700]))
+			m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("f")})
+			m = step(t, m, eventsMsg(evs[700:]))
+			m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("c")})
+			got := plain(m.View())
+			for i, l := range strings.Split(got, "\n") {
+				if w := lipgloss.Width(l); w > size[0] {
+					t.Errorf("line %d is %d wide: %q", i, w, l)
+				}
+			}
+			if n := strings.Count(got, "\n") + 1; n != size[1] {
+				t.Errorf("%d lines, want %d", n, size[1])
+			}
+			if updating() {
+				os.MkdirAll("testdata", 0o755)
+				os.WriteFile(name, []byte(got), 0o644)
+				return
+			}
+			want, err := os.ReadFile(name)
+			if err != nil {
+				t.Fatalf("%v (run go test ./tui -update)", err)
+			}
+			if got != string(want) {
+				t.Errorf("screen differs from %s:\n%s", name, got)
+			}
+		})
+	}
+}

@@ -1,0 +1,404 @@
+package tui
+
+import (
+	"fmt"
+	"math"
+	"strings"
+	"time"
+
+	"github.com/charmbracelet/lipgloss"
+
+	"parch/internal/kinetics"
+)
+
+// Minimum terminal size for the full layout.
+const (
+	minWidth  = 80
+	minHeight = 24
+)
+
+// View draws the dashboard.
+func (m Model) View() string {
+	w, h := m.width, m.height
+	if w == 0 || h == 0 {
+		w, h = minWidth, minHeight // no size yet (no terminal): draw the smallest layout
+	}
+	if m.mode == modeHelp {
+		return m.fullHelp(w, h)
+	}
+	if w < minWidth || h < minHeight {
+		return m.tooSmall(w, h)
+	}
+	header := m.header(w)
+	alerts := m.alerts(w)
+	bottom := m.bottomLines(w)
+	body := h - 2 - len(bottom)
+	rightW := 30
+	if w >= 140 {
+		rightW = 44
+	}
+	leftW := w - rightW - 1
+	topH := body * 3 / 5
+	lowH := body - topH
+
+	var top, low string
+	switch m.mode {
+	case modeMenu:
+		top = m.menuView(w, topH)
+		low = joinCols(m.rateChart(leftW, lowH), m.notesPane(rightW, lowH), leftW, rightW, lowH)
+	case modeSetup:
+		top = m.setupView(w, topH+lowH)
+		low = ""
+	default:
+		top = joinCols(m.moistureChart(leftW, topH), m.figures(rightW, topH), leftW, rightW, topH)
+		low = joinCols(m.rateChart(leftW, lowH), m.notesPane(rightW, lowH), leftW, rightW, lowH)
+	}
+	parts := []string{header, alerts, top}
+	if low != "" {
+		parts = append(parts, low)
+	}
+	parts = append(parts, bottom...)
+	return fitHeight(strings.Join(parts, "\n"), h)
+}
+
+// joinCols puts two panes side by side, each cut or padded to its size.
+func joinCols(left, right []string, lw, rw, h int) string {
+	rows := make([]string, h)
+	for i := 0; i < h; i++ {
+		l, r := "", ""
+		if i < len(left) {
+			l = left[i]
+		}
+		if i < len(right) {
+			r = right[i]
+		}
+		rows[i] = pad(truncate(l, lw), lw) + " " + truncate(r, rw)
+	}
+	return strings.Join(rows, "\n")
+}
+
+func pad(s string, w int) string {
+	if d := w - lipgloss.Width(s); d > 0 {
+		return s + strings.Repeat(" ", d)
+	}
+	return s
+}
+
+func fitHeight(s string, h int) string {
+	lines := strings.Split(s, "\n")
+	if len(lines) > h {
+		lines = lines[:h]
+	}
+	for len(lines) < h {
+		lines = append(lines, "")
+	}
+	return strings.Join(lines, "\n")
+}
+
+func (m *Model) header(w int) string {
+	state := m.state
+	marker := map[string]string{stateWaiting: "…", stateLive: "●", stateStalled: "!", stateLost: "!", stateEnded: "■"}[state]
+	src := marker + " " + state
+	if state == stateLost || state == stateStalled {
+		src += " since " + m.stateSince.Local().Format("15:04:05")
+	}
+	rej := 0
+	if m.res != nil {
+		rej = m.res.Rejected
+	}
+	left := m.styles.Title.Render("parch") + "  " + m.opt.Title
+	right := fmt.Sprintf("%s  %d readings  %d rejected", src, len(m.th), rej)
+	if m.problems > 0 {
+		right += fmt.Sprintf("  %d problem lines", m.problems)
+	}
+	gap := w - lipgloss.Width(left) - lipgloss.Width(right)
+	if gap < 1 {
+		return truncate(left+" "+right, w)
+	}
+	return left + strings.Repeat(" ", gap) + right
+}
+
+// alerts is one line of alerts, each with a word and a marker, so none rests
+// on colour alone.
+func (m *Model) alerts(w int) string {
+	var a []string
+	if m.res != nil && !math.IsNaN(m.res.TargetReachedH) {
+		a = append(a, fmt.Sprintf("* TARGET REACHED at %s", fmtHM(m.res.TargetReachedH)))
+	}
+	switch m.state {
+	case stateLost:
+		a = append(a, "! SOURCE LOST since "+m.stateSince.Local().Format("15:04")+": "+m.stateDetail)
+	case stateStalled:
+		a = append(a, "! STALLED: "+m.stateDetail)
+	}
+	if m.livePt.Period == kinetics.PeriodSteady || m.lastGood.Period == kinetics.PeriodSteady {
+		a = append(a, "= STEADY WEIGHT: end of run?")
+	}
+	if n := len(m.air); n > 0 && !math.IsNaN(m.opt.AirLow) && !math.IsNaN(m.air[n-1]) {
+		if v := m.air[n-1]; v < m.opt.AirLow || v > m.opt.AirHigh {
+			a = append(a, fmt.Sprintf("! AIR %.1f °C outside %g–%g", v, m.opt.AirLow, m.opt.AirHigh))
+		}
+	}
+	if m.res != nil {
+		for _, s := range m.res.SuspectedRemovals {
+			if !m.accepted[s.ElapsedH] {
+				a = append(a, fmt.Sprintf("? DROP of %.2f g at %s: a piece removed? (a: accept)", s.MassG, fmtHM(s.ElapsedH)))
+				break
+			}
+		}
+	}
+	if len(a) == 0 {
+		return ""
+	}
+	return truncate(m.styles.Alert.Render(strings.Join(a, "  ")), w)
+}
+
+// figures is the pane of numbers.
+func (m *Model) figures(w, h int) []string {
+	s := m.styles
+	row := func(label, value string) string {
+		return pad(s.Label.Render(label), 10) + s.Value.Render(value)
+	}
+	var out []string
+	out = append(out, s.Heading.Render("now"))
+	now := m.elapsedNow()
+	if math.IsNaN(now) {
+		return append(out, s.Dim.Render("no readings yet"))
+	}
+	out = append(out, row("elapsed", fmtHM(now)+"  "+s.Dim.Render("from "+m.start.Local().Format("15:04"))))
+	n := len(m.raw)
+	net := m.raw[n-1] - m.setup.TareG
+	out = append(out, row("mass", fmt.Sprintf("%.2f g", net)))
+	if x := m.moistureNow(); !math.IsNaN(x) {
+		out = append(out, row("moisture", fmt.Sprintf("%.1f %% wb  %.3f db", 100*x/(1+x), x)))
+	} else {
+		out = append(out, row("moisture", s.Dim.Render("— (u: setup)")))
+	}
+	if r := m.lastGood.RateGPH; !math.IsNaN(r) {
+		v := fmt.Sprintf("%.2f g/h", r)
+		if m.setup.AreaM2 > 0 {
+			v += fmt.Sprintf("  %.3f kg/m²h", r/1000/m.setup.AreaM2)
+		}
+		out = append(out, row("rate", v))
+	} else {
+		out = append(out, row("rate", "—"))
+	}
+	period := string(m.lastGood.Period)
+	if m.res != nil && m.res.ConstantRate != nil && !m.res.ConstantRate.Ongoing && !math.IsNaN(m.res.ConstantRate.CriticalDB) {
+		period += fmt.Sprintf(", Xc %.2f", m.res.ConstantRate.CriticalDB)
+	}
+	out = append(out, row("period", period))
+	out = append(out, m.projectionLines(row, w)...)
+	if m.res != nil && m.res.Best != nil {
+		out = append(out, row("model", fmt.Sprintf("%s R² %.4f", m.res.Best.Model.Name, m.res.Best.R2)))
+	}
+	if v := m.air[n-1]; !math.IsNaN(v) {
+		out = append(out, row("air", fmt.Sprintf("%.1f °C", v)))
+	}
+	// More room: the rest of the analysis.
+	if r := m.res; r != nil && h-len(out) >= 6 {
+		out = append(out, "", s.Heading.Render("run so far"))
+		if !math.IsNaN(r.DryMassG) {
+			out = append(out, row("solids", fmt.Sprintf("%.2f g dry", r.DryMassG)))
+		}
+		if cr := r.ConstantRate; cr != nil && !math.IsNaN(cr.RateGPerH) {
+			end := "still on"
+			if !cr.Ongoing {
+				end = "to " + fmtHM(cr.EndH)
+			}
+			out = append(out, row("constant", fmt.Sprintf("%.2f g/h %s", cr.RateGPerH, end)))
+		} else if len(m.th) >= 10 {
+			out = append(out, row("constant", "no constant-rate period"))
+		}
+		if d := r.Diffusivity; d != nil {
+			out = append(out, row("Deff", fmt.Sprintf("%.3g m²/s", d.DM2PerS)))
+		}
+		if !math.IsNaN(r.EndOfRunH) {
+			out = append(out, row("steady", "since "+fmtHM(r.EndOfRunH)))
+		}
+		out = append(out, row("rejected", fmt.Sprintf("%d of %d readings", r.Rejected, r.Readings)))
+	}
+	if len(out) > h {
+		out = out[:h]
+	}
+	return out
+}
+
+// moistureNow is the dry-basis moisture of the newest kept reading.
+func (m *Model) moistureNow() float64 {
+	if m.res != nil && !math.IsNaN(m.res.DryMassG) {
+		return m.lastGoodNet()/m.res.DryMassG - 1
+	}
+	return m.lastGood.X
+}
+
+func (m *Model) projectionLines(row func(string, string) string, w int) []string {
+	s := m.styles
+	if m.res == nil {
+		return []string{row("target", s.Dim.Render("analysing..."))}
+	}
+	r := m.res
+	if math.IsNaN(r.TargetMassG) {
+		return []string{row("target", s.Dim.Render("none set (u: setup)"))}
+	}
+	out := []string{row("target", fmt.Sprintf("%.1f %% = %.2f g", r.TargetMoistureWBPct, r.TargetMassG))}
+	p := r.Projection
+	switch {
+	case p.Method == kinetics.ProjReached:
+		out = append(out, row("reached", s.Good.Render(m.clockAt(p.TargetH)+" ("+fmtHM(p.TargetH)+")")))
+	case !math.IsNaN(p.TargetH):
+		left := p.TargetH - m.elapsedNow()
+		v := m.clockAt(p.TargetH) + ", in " + fmtHM(left)
+		out = append(out, row("projected", v))
+		rng := "not before " + m.clockAt(p.LowH)
+		if !math.IsNaN(p.HighH) {
+			rng = m.clockAt(p.LowH) + " to " + m.clockAt(p.HighH)
+		}
+		out = append(out, row("range", rng))
+	default:
+		why := p.Why
+		if why == "" {
+			why = "not yet"
+		}
+		out = append(out, row("projected", "—"), s.Dim.Render(truncate(why, w)))
+	}
+	return out
+}
+
+// clockAt is the local clock time at elapsed hours h.
+func (m *Model) clockAt(h float64) string {
+	if math.IsNaN(h) || math.IsInf(h, 0) {
+		return "—"
+	}
+	t := m.start.Add(time.Duration(h * float64(time.Hour))).Local()
+	if h-m.elapsedNow() > 20 {
+		return t.Format("Jan 2 15:04")
+	}
+	return t.Format("15:04")
+}
+
+// fmtHM writes hours as h:mm.
+func fmtHM(h float64) string {
+	if math.IsNaN(h) || math.IsInf(h, 0) {
+		return "—"
+	}
+	neg := ""
+	if h < 0 {
+		neg, h = "-", -h
+	}
+	mins := int(math.Round(h * 60))
+	return fmt.Sprintf("%s%d:%02d h", neg, mins/60, mins%60)
+}
+
+// notesPane lists the latest notes with their elapsed times.
+func (m *Model) notesPane(w, h int) []string {
+	out := []string{m.styles.Heading.Render("notes") + m.styles.Dim.Render(" (n, t: tag)")}
+	if len(m.notes) == 0 {
+		return append(out, m.styles.Dim.Render("none yet"))
+	}
+	from := max(0, len(m.notes)-(h-1))
+	for _, n := range m.notes[from:] {
+		line := fmt.Sprintf("%8s %s", fmtHM(n.elapsedH), noteLabel(n.kind, n.text, n.value))
+		out = append(out, truncate(line, w))
+	}
+	return out
+}
+
+// noteLabel is how a note reads on screen.
+func noteLabel(kind, text string, value float64) string {
+	label := strings.ReplaceAll(kind, "_", " ")
+	for _, t := range tags {
+		if t.kind == kind && kind != kindNote {
+			label = t.label
+		}
+	}
+	if kind == kindNote {
+		label = ""
+	}
+	if !math.IsNaN(value) {
+		switch kind {
+		case kindRemoved:
+			label += fmt.Sprintf(" %.2f g", value)
+		case kindSetpoint:
+			label += fmt.Sprintf(" %g °C", value)
+		default:
+			label += fmt.Sprintf(" %g", value)
+		}
+	}
+	if text != "" {
+		if label != "" {
+			label += ": "
+		}
+		label += text
+	}
+	return strings.TrimSpace(label)
+}
+
+func (m *Model) bottomLines(w int) []string {
+	var line string
+	switch {
+	case m.mode == modeNote || m.mode == modeNumber:
+		line = m.input.View() + m.styles.Dim.Render("  (enter: save, esc: cancel)")
+		if m.errMsg != "" {
+			line += "  " + m.styles.Error.Render("! "+m.errMsg)
+		}
+	case m.mode == modeQuit:
+		line = m.styles.Alert.Render("Quit? Recording stops with the dashboard. y: quit, any other key: stay")
+	case m.errMsg != "":
+		line = m.styles.Error.Render("! " + m.errMsg)
+	case m.flash != "":
+		line = m.styles.Good.Render(m.flash)
+	case m.mode == modeSetup && m.form.err != "":
+		line = m.styles.Error.Render("! " + m.form.err)
+	}
+	help := m.help.ShortHelpView(m.keys.ShortHelp())
+	return []string{truncate(line, w), truncate(help, w)}
+}
+
+func (m *Model) menuView(w, h int) string {
+	out := []string{m.styles.Heading.Render("tag an observation") + m.styles.Dim.Render("  (↑/↓ or 1-7, enter: tag, esc: back)")}
+	for i, t := range tags {
+		cursor := "  "
+		if i == m.menuPos {
+			cursor = "> "
+		}
+		out = append(out, fmt.Sprintf("%s%d  %s", cursor, i+1, t.label))
+	}
+	return fitHeight(strings.Join(out, "\n"), h)
+}
+
+func (m *Model) setupView(w, h int) string {
+	out := []string{m.styles.Heading.Render("run setup") + m.styles.Dim.Render("  (tab: next field, enter: save and recompute, esc: cancel)"), ""}
+	for i, fd := range setupFields {
+		cursor := "  "
+		if i == m.form.pos {
+			cursor = "> "
+		}
+		out = append(out, cursor+pad(fd.label, 38)+m.form.inputs[i].View())
+	}
+	out = append(out, "", m.styles.Dim.Render("Everything is recomputed from the readings; the readings are never changed."))
+	return fitHeight(strings.Join(out, "\n"), h)
+}
+
+func (m *Model) fullHelp(w, h int) string {
+	out := []string{m.styles.Heading.Render("parch dashboard: keys"), ""}
+	for _, col := range m.keys.FullHelp() {
+		for _, b := range col {
+			out = append(out, fmt.Sprintf("  %-10s %s", b.Help().Key, b.Help().Desc))
+		}
+	}
+	out = append(out, "",
+		"Notes are stamped with the newest reading's time and written to the session log at once.",
+		"Moisture alone does not make a dried food safe: water activity does. Follow local",
+		"food-safety regulation. Dryers run hot.", "", m.styles.Dim.Render("any key: back"))
+	return fitHeight(strings.Join(out, "\n"), h)
+}
+
+func (m *Model) tooSmall(w, h int) string {
+	out := []string{truncate(m.header(w), w)}
+	for _, l := range m.figures(w, h-3) {
+		out = append(out, truncate(l, w))
+	}
+	out = append(out, truncate(m.styles.Alert.Render(fmt.Sprintf("terminal is %dx%d; the full dashboard needs %dx%d", w, h, minWidth, minHeight)), w))
+	return fitHeight(strings.Join(out, "\n"), h)
+}
