@@ -1,0 +1,112 @@
+package main
+
+import (
+	"encoding/json"
+	"fmt"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"parch/internal/session"
+)
+
+// The dashboard in a real terminal: tmux runs `parch demo` at 80x24, keys
+// are typed with send-keys, the screen is read with capture-pane.
+func TestDashboardInTmux(t *testing.T) {
+	if _, err := exec.LookPath("tmux"); err != nil {
+		t.Skip("tmux is not installed (.ci/run installs it)")
+	}
+	dir := t.TempDir()
+	log := filepath.Join(dir, "e2e.jsonl")
+	sock := fmt.Sprintf("parch-test-%d", os.Getpid())
+	tmux := func(args ...string) (string, error) {
+		out, err := exec.Command("tmux", append([]string{"-L", sock}, args...)...).CombinedOutput()
+		return string(out), err
+	}
+	defer tmux("kill-server")
+	cmdline := fmt.Sprintf("cd %s && %s demo --session %s --speed 400; echo PARCH-EXITED $?; sleep 30", dir, binary, log)
+	if out, err := tmux("new-session", "-d", "-x", "80", "-y", "24", "-s", "e2e", cmdline); err != nil {
+		t.Fatalf("tmux: %v %s", err, out)
+	}
+	screen := func() string {
+		out, _ := tmux("capture-pane", "-p", "-t", "e2e")
+		return out
+	}
+	waitScreen := func(what string, ok func(string) bool) string {
+		t.Helper()
+		deadline := time.Now().Add(20 * time.Second)
+		for {
+			s := screen()
+			if ok(s) {
+				return s
+			}
+			if time.Now().After(deadline) {
+				t.Fatalf("timed out waiting for %s; screen:\n%s", what, s)
+			}
+			time.Sleep(200 * time.Millisecond)
+		}
+	}
+	has := func(words ...string) func(string) bool {
+		return func(s string) bool {
+			for _, w := range words {
+				if !strings.Contains(s, w) {
+					return false
+				}
+			}
+			return true
+		}
+	}
+	s := waitScreen("the figures", has("elapsed", "mass", "g/h", "moisture", "projected", "● live"))
+	for i, line := range strings.Split(strings.TrimRight(s, "\n"), "\n") {
+		if len([]rune(line)) > 80 {
+			t.Errorf("screen line %d is wider than 80: %q", i, line)
+		}
+	}
+	tmux("send-keys", "-t", "e2e", "b")
+	waitScreen("the bend test note", has("bend test passed"))
+	tmux("send-keys", "-t", "e2e", "r")
+	waitScreen("the grams prompt", has("grams removed:"))
+	tmux("send-keys", "-t", "e2e", "2.5", "Enter")
+	waitScreen("the removal note", has("piece removed 2.50 g"))
+	tmux("send-keys", "-t", "e2e", "q")
+	waitScreen("the quit question", has("Quit?"))
+	tmux("send-keys", "-t", "e2e", "y")
+	s = waitScreen("parch to exit", has("PARCH-EXITED"))
+	if !strings.Contains(s, "PARCH-EXITED 0") || !strings.Contains(s, "session log") {
+		t.Fatalf("exit:\n%s", s)
+	}
+
+	l, err := session.Load(log)
+	if err != nil {
+		t.Fatal(err)
+	}
+	kinds := map[string]float64{}
+	for _, n := range l.Notes {
+		v := 0.0
+		if n.Value != nil {
+			v = *n.Value
+		}
+		kinds[n.Kind] = v
+	}
+	if _, ok := kinds["bend_test_passed"]; !ok || kinds["piece_removed"] != 2.5 || l.Readings.Len() < 50 {
+		t.Fatalf("log: %d readings, notes %v", l.Readings.Len(), kinds)
+	}
+	// parch report on the same log agrees: the removal is applied.
+	out, stderr, code := parch(t, dir, "report", "--format", "json", log)
+	if code != 0 {
+		t.Fatal(stderr)
+	}
+	var rep struct {
+		Removed []struct {
+			MassG float64 `json:"mass_g"`
+		} `json:"removed"`
+		Notes []any `json:"notes"`
+	}
+	json.Unmarshal([]byte(out), &rep)
+	if len(rep.Removed) != 1 || rep.Removed[0].MassG != 2.5 || len(rep.Notes) != 2 {
+		t.Fatalf("report: removed %v, %d notes", rep.Removed, len(rep.Notes))
+	}
+}
