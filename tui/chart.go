@@ -7,6 +7,7 @@ import (
 
 	"github.com/charmbracelet/lipgloss"
 	"github.com/guptarohit/asciigraph"
+	"github.com/muesli/termenv"
 
 	"parch/internal/kinetics"
 )
@@ -290,7 +291,10 @@ func (m *Model) moistureChart(w, h int) []string {
 		_ = cols2
 	}
 	chars := []asciigraph.CharSet{{}, {Horizontal: "╌"}, {Horizontal: "═"}, {Horizontal: "·", VerticalLine: ":", ArcDownRight: "·", ArcDownLeft: "·", ArcUpRight: "·", ArcUpLeft: "·"}}
-	colors := []asciigraph.AnsiColor{asciigraph.Default, asciigraph.Red, asciigraph.Blue, asciigraph.Green}
+	var colors []asciigraph.AnsiColor // none on NO_COLOR or monochrome terminals
+	if lipgloss.ColorProfile() != termenv.Ascii {
+		colors = []asciigraph.AnsiColor{asciigraph.Default, asciigraph.Red, asciigraph.Blue, asciigraph.Green}
+	}
 	lines = append(lines, plot(series, w, rows, chars, colors, yfmt)...)
 	left := labW2 + 2
 	lines = append(lines, m.styles.Dim.Render(timeAxis(left, cols, 0, t1)))

@@ -41,13 +41,22 @@ func (mb *Mailbox) Close() {
 	}
 }
 
-// Take waits for batches and returns all of them at once; ok is false when
-// the mailbox is closed and empty.
+// MaxTake bounds what one Take returns, so a long backlog (a log replayed
+// at start) reaches the reader in steps it can show progress on.
+const MaxTake = 8192
+
+// Take waits for batches and returns what is waiting, up to MaxTake events;
+// ok is false when the mailbox is closed and empty.
 func (mb *Mailbox) Take() (b []ingest.Event, ok bool) {
 	for {
 		mb.mu.Lock()
-		if len(mb.pending) > 0 {
-			b, mb.pending = mb.pending, nil
+		if n := len(mb.pending); n > 0 {
+			if n > MaxTake {
+				b = append([]ingest.Event(nil), mb.pending[:MaxTake]...)
+				mb.pending = mb.pending[MaxTake:]
+			} else {
+				b, mb.pending = mb.pending, nil
+			}
 			mb.mu.Unlock()
 			return b, true
 		}
