@@ -4,18 +4,25 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"os"
+	"path/filepath"
+	"strings"
 	"time"
 
+	"parch/internal/export"
 	"parch/internal/ingest"
 	"parch/internal/kinetics"
 	"parch/internal/report"
 )
 
 func runReport(args []string, stdout, stderr io.Writer) error {
-	fs := newFlagSet("report", "report FILE [flags]   (FILE: a session log or a CSV/TSV)", stderr)
+	fs := newFlagSet("report", "report FILE [--out DIR] [flags]   (FILE: a session log or a CSV/TSV)", stderr)
 	var sf setupFlags
 	sf.register(fs)
-	format := fs.String("format", "text", "output: text or json")
+	format := fs.String("format", "text", "output: text, json, or csv (readings.csv to standard output)")
+	out := fs.String("out", "", "write the full record into the folder `DIR`: readings.csv, notes.csv, summary.json, report.md, plots")
+	force := fs.Bool("force", false, "with --out: write into a folder that exists")
+	quiet := fs.Bool("quiet", false, "no progress messages")
 	timeCol := fs.String("time-col", "", "CSV: time column (name or 1-based number)")
 	massCol := fs.String("mass-col", "", "CSV: mass column (name or 1-based number)")
 	timeUnit := fs.String("time-unit", "", "CSV: unit of an elapsed-time column whose header names none: s, min, h")
@@ -26,8 +33,11 @@ func runReport(args []string, stdout, stderr io.Writer) error {
 	if len(pos) != 1 {
 		return usagef("give one session log or CSV file, e.g. parch report run.jsonl")
 	}
-	if *format != "text" && *format != "json" {
-		return usagef("--format %q: expected text or json", *format)
+	if *format != "text" && *format != "json" && *format != "csv" {
+		return usagef("--format %q: expected text, json or csv", *format)
+	}
+	if *force && *out == "" {
+		return usagef("--force goes with --out DIR")
 	}
 	opt := ingest.TableOptions{TimeCol: *timeCol, MassCol: *massCol}
 	if *timeUnit != "" {
@@ -41,31 +51,82 @@ func runReport(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	begin := time.Now()
-	run, err := report.Load(pos[0], opt)
+	progress := func(msg string) {
+		if !*quiet {
+			fmt.Fprintln(stderr, msg)
+		}
+	}
+	b, err := analyse(pos[0], opt, &sf, until, progress)
 	if err != nil {
 		return err
+	}
+	if *out != "" {
+		if err := export.Write(*out, *force, b, progress); err != nil {
+			return err
+		}
+		progress("wrote " + *out)
+	}
+	switch *format {
+	case "json":
+		return report.WriteJSON(stdout, b.Summary)
+	case "csv":
+		return export.Readings(stdout, b)
+	}
+	if *out != "" && *format == "text" && !isTerminal(stdout) {
+		return nil
+	}
+	return report.WriteText(stdout, b.Summary)
+}
+
+// analyse loads a run and analyses it; long logs report progress.
+func analyse(path string, opt ingest.TableOptions, sf *setupFlags, until float64, progress func(string)) (*export.Bundle, error) {
+	begin := time.Now()
+	run, err := report.Load(path, opt)
+	if err != nil {
+		return nil, err
+	}
+	if n := len(run.Series.TimeH); n > 200_000 {
+		progress(fmt.Sprintf("read %d readings in %s; analysing", n, time.Since(begin).Round(time.Millisecond)))
 	}
 	setup, err := sf.build(run)
 	if err != nil {
-		return err
+		return nil, err
 	}
 	res, err := kinetics.Analyze(run.Series, setup, kinetics.Options{UntilH: until})
 	if errors.Is(err, kinetics.ErrNoReadings) {
-		return fmt.Errorf("%s has no readings to analyse", pos[0])
+		return nil, fmt.Errorf("%s has no readings to analyse", path)
 	}
 	if err != nil {
-		return err
-	}
-	sum := report.Build(run, res, setup, until)
-	if *format == "json" {
-		return report.WriteJSON(stdout, sum)
-	}
-	if err := report.WriteText(stdout, sum); err != nil {
-		return err
+		return nil, err
 	}
 	if d := time.Since(begin); d > 2*time.Second {
-		fmt.Fprintf(stderr, "analysed %d readings in %s\n", res.Readings, d.Round(time.Millisecond))
+		progress(fmt.Sprintf("analysed %d readings in %s", res.Readings, d.Round(time.Millisecond)))
 	}
-	return nil
+	sum := report.Build(run, res, setup, until)
+	return &export.Bundle{Run: run, Res: res, Setup: setup, Summary: sum, Version: version,
+		History: res.ProjectionHistory(run.Series, setup, 12)}, nil
+}
+
+// isTerminal reports whether w is a terminal (text summaries go there; with
+// --out and a pipe, the folder is the output).
+func isTerminal(w io.Writer) bool {
+	f, ok := w.(*os.File)
+	if !ok {
+		return true
+	}
+	st, err := f.Stat()
+	return err == nil && st.Mode()&os.ModeCharDevice != 0
+}
+
+// exportFolder picks a folder named after a session log that does not exist
+// yet: run.jsonl -> run-report, run-report-2, ...
+func exportFolder(logPath string) string {
+	base := strings.TrimSuffix(logPath, filepath.Ext(logPath)) + "-report"
+	dir := base
+	for i := 2; ; i++ {
+		if _, err := os.Stat(dir); os.IsNotExist(err) {
+			return dir
+		}
+		dir = fmt.Sprintf("%s-%d", base, i)
+	}
 }

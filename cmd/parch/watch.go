@@ -14,6 +14,7 @@ import (
 
 	tea "github.com/charmbracelet/bubbletea"
 
+	"parch/internal/export"
 	"parch/internal/ingest"
 	"parch/internal/kinetics"
 	"parch/internal/recorder"
@@ -209,6 +210,17 @@ func watch(src *sourceFlags, sf *setupFlags, airMin, airMax float64, stdout, std
 			}
 			cerr := w.Close()
 			fmt.Fprintf(stdout, "%s: %d readings this time; session log %s\n", detail, rec.Stats().Readings, path)
+			// The record of the run, next to the log.
+			if cerr == nil {
+				dir := exportFolder(path)
+				if b, err := analyse(path, ingest.TableOptions{}, sf, math.NaN(), func(string) {}); err != nil {
+					fmt.Fprintf(stdout, "no report folder: %v\n", err)
+				} else if err := export.Write(dir, false, b, nil); err != nil {
+					fmt.Fprintf(stdout, "no report folder: %v\n", err)
+				} else {
+					fmt.Fprintf(stdout, "report: %s (parch report %s --out DIR re-makes it with a corrected setup)\n", dir, path)
+				}
+			}
 			if runErr != nil {
 				return runErr
 			}
