@@ -218,3 +218,32 @@ func TestReportUsesSessionSetupAndNotes(t *testing.T) {
 		t.Errorf("--dry-mass must override the log: %v", d)
 	}
 }
+
+// parch report --out: the folder, refused when it exists, --force, and
+// --format csv on standard output.
+func TestReportOutFolder(t *testing.T) {
+	dir := t.TempDir()
+	if _, stderr, code := parch(t, dir, "simulate", "--out", "run.csv"); code != 0 {
+		t.Fatal(stderr)
+	}
+	args := []string{"report", "run.csv", "--initial-moisture", "86.5", "--target", "18", "--thickness", "6", "--quiet"}
+	if _, stderr, code := parch(t, dir, append(args, "--out", "rec")...); code != 0 {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	for _, f := range []string{"readings.csv", "notes.csv", "summary.json", "report.md", "moisture.png", "moisture.svg", "best_model.png"} {
+		if _, err := os.Stat(filepath.Join(dir, "rec", f)); err != nil {
+			t.Errorf("missing %s", f)
+		}
+	}
+	if _, stderr, code := parch(t, dir, append(args, "--out", "rec")...); code != 1 || !strings.Contains(stderr, "--force") {
+		t.Errorf("existing folder: exit %d, %s", code, stderr)
+	}
+	if _, stderr, code := parch(t, dir, append(args, "--out", "rec", "--force")...); code != 0 {
+		t.Errorf("--force: exit %d, %s", code, stderr)
+	}
+	out, _, code := parch(t, dir, append(args, "--format", "csv")...)
+	lines := strings.Split(strings.TrimSpace(out), "\n")
+	if code != 0 || !strings.HasPrefix(lines[0], "elapsed_h,time,mass_g,moisture_wb_pct") || len(lines) != 5762 {
+		t.Errorf("--format csv: exit %d, %d lines, header %q", code, len(lines), lines[0])
+	}
+}

@@ -213,6 +213,7 @@ func ratePlot(b *Bundle) (*plot.Plot, error) {
 		return nil, nil
 	}
 	p := newPlot("Drying rate against moisture", "moisture (dry basis, kg water/kg solids)", "drying rate (g/h)")
+	p.Legend.Top = false // the data fill the top right; the bottom right is empty
 	sc, err := plotter.NewScatter(data)
 	if err != nil {
 		return nil, err
