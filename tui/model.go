@@ -221,13 +221,7 @@ func (m *Model) addEvents(b []ingest.Event) {
 				m.start = e.T
 			}
 			h := e.T.Sub(m.start).Hours()
-			st := int8(0)
-			switch e.Stable {
-			case ingest.Stable:
-				st = 1
-			case ingest.Unstable:
-				st = -1
-			}
+			st := e.Stable.Int8()
 			m.th = append(m.th, h)
 			m.raw = append(m.raw, e.MassG)
 			m.stable = append(m.stable, st)

@@ -24,51 +24,58 @@ import (
 )
 
 func runWatch(args []string, stdout, stderr io.Writer) error {
-	fs := newFlagSet("watch", "watch [--port DEVICE | --follow FILE | --demo] [--session FILE] [setup flags]", stderr)
-	var src sourceFlags
-	src.register(fs)
-	var sf setupFlags
-	sf.register(fs)
-	airMin := fs.Float64("air-min", math.NaN(), "alert when the air temperature falls below this, °C")
-	airMax := fs.Float64("air-max", math.NaN(), "alert when the air temperature rises above this, °C")
-	pos, err := parseFlags(fs, args)
+	w, err := watchFlags("watch", "watch [--port DEVICE | --follow FILE | --demo] [--session FILE] [setup flags]", math.NaN(), math.NaN(), args, stderr)
 	if err != nil {
 		return err
 	}
-	if len(pos) > 0 {
-		return usagef("unexpected argument %q", pos[0])
-	}
-	return watch(&src, &sf, *airMin, *airMax, stdout, stderr)
+	return watch(w, stdout)
 }
 
 func runDemo(args []string, stdout, stderr io.Writer) error {
-	fs := newFlagSet("demo", "demo [--session FILE] [--seed N] [--speed X] [setup flags]", stderr)
-	var src sourceFlags
-	src.register(fs)
-	var sf setupFlags
-	sf.register(fs)
-	airMin := fs.Float64("air-min", 55, "alert when the air temperature falls below this, °C")
-	airMax := fs.Float64("air-max", 65, "alert when the air temperature rises above this, °C")
-	pos, err := parseFlags(fs, args)
+	w, err := watchFlags("demo", "demo [--session FILE] [--seed N] [--speed X] [setup flags]", 55, 65, args, stderr)
 	if err != nil {
 		return err
 	}
-	if len(pos) > 0 {
-		return usagef("unexpected argument %q", pos[0])
-	}
-	if src.port != "" || src.follow != "" {
+	if w.src.port != "" || w.src.follow != "" {
 		return usagef("demo runs the built-in invented run; for a balance or a file use 'parch watch --port' or '--follow'")
 	}
-	src.demo = true
+	w.src.demo = true
 	// The demo's invented apple rings: what an operator would have entered.
-	defaults := map[string]float64{report.KeyInitialMoistureWB: 86.5, report.KeyTargetWB: 18, report.KeyThickness: 6, report.KeyFaces: 2, report.KeyEquilibriumDB: 0.05}
-	sf.defaults = defaults
-	return watch(&src, &sf, *airMin, *airMax, stdout, stderr)
+	w.setup.defaults = map[string]float64{report.KeyInitialMoistureWB: 86.5, report.KeyTargetWB: 18, report.KeyThickness: 6, report.KeyFaces: 2, report.KeyEquilibriumDB: 0.05}
+	return watch(w, stdout)
+}
+
+// watchArgs are the dashboard's flags.
+type watchArgs struct {
+	src            sourceFlags
+	setup          setupFlags
+	airMin, airMax float64
+}
+
+func watchFlags(name, usage string, airMin, airMax float64, args []string, stderr io.Writer) (*watchArgs, error) {
+	fs := newFlagSet(name, usage, stderr)
+	w := &watchArgs{}
+	w.src.register(fs)
+	w.setup.register(fs)
+	fs.Float64Var(&w.airMin, "air-min", airMin, "alert when the air temperature falls below this, °C")
+	fs.Float64Var(&w.airMax, "air-max", airMax, "alert when the air temperature rises above this, °C")
+	pos, err := parseFlags(fs, args)
+	if err != nil {
+		return nil, err
+	}
+	if len(pos) > 0 {
+		return nil, usagef("unexpected argument %q", pos[0])
+	}
+	if math.IsNaN(w.airMin) != math.IsNaN(w.airMax) {
+		return nil, usagef("--air-min and --air-max go together")
+	}
+	return w, nil
 }
 
 // watch runs the dashboard: recording a source into the session log, or
 // attached to a log another parch is recording.
-func watch(src *sourceFlags, sf *setupFlags, airMin, airMax float64, stdout, stderr io.Writer) error {
+func watch(wa *watchArgs, stdout io.Writer) error {
+	src, sf := &wa.src, &wa.setup
 	now := time.Now()
 	hasSource := src.port != "" || src.follow != "" || src.demo
 	if !hasSource && src.session == "" {
@@ -88,11 +95,8 @@ func watch(src *sourceFlags, sf *setupFlags, airMin, airMax float64, stdout, std
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
 
-	opt := tui.Options{Stall: src.stall, AirLow: airMin, AirHigh: airMax,
+	opt := tui.Options{Stall: src.stall, AirLow: wa.airMin, AirHigh: wa.airMax,
 		Bell: func() { os.Stdout.Write([]byte("\a")) }}
-	if math.IsNaN(airMin) != math.IsNaN(airMax) {
-		return usagef("--air-min and --air-max go together")
-	}
 	var finish func(runErr error) error
 	setup := kinetics.NewSetup()
 
@@ -105,15 +109,7 @@ func watch(src *sourceFlags, sf *setupFlags, airMin, airMax float64, stdout, std
 		if err != nil {
 			return err
 		}
-		logParams := map[string]float64{}
-		for _, s := range log.Setups {
-			for k, v := range s.Params {
-				if f, ok := v.(float64); ok {
-					logParams[k] = f
-				}
-			}
-		}
-		report.ApplyParams(&setup, logParams)
+		report.ApplyParams(&setup, log.SetupParams())
 		report.ApplyParams(&setup, flagParams)
 		if len(flagParams) > 0 {
 			if err := session.AppendOnce(src.session, &session.Event{Type: session.TypeSetup, T: now, Params: anyMap(flagParams)}); err != nil {
@@ -151,13 +147,7 @@ func watch(src *sourceFlags, sf *setupFlags, airMin, airMax float64, stdout, std
 		}
 		logParams := map[string]float64{}
 		if earlier != nil {
-			for _, s := range earlier.Setups {
-				for k, v := range s.Params {
-					if f, ok := v.(float64); ok {
-						logParams[k] = f
-					}
-				}
-			}
+			logParams = earlier.SetupParams()
 		}
 		report.ApplyParams(&setup, params)
 		report.ApplyParams(&setup, logParams) // what the log says beats the demo's defaults
@@ -245,13 +235,7 @@ func replay(l *session.Log) []ingest.Event {
 	r := &l.Readings
 	out := make([]ingest.Event, 0, r.Len()+len(l.Notes))
 	for i := 0; i < r.Len(); i++ {
-		st := ingest.StabilityUnknown
-		switch r.Stable[i] {
-		case 1:
-			st = ingest.Stable
-		case -1:
-			st = ingest.Unstable
-		}
+		st := ingest.StabilityOf(r.Stable[i])
 		var ch map[string]float64
 		for name, col := range r.Channels {
 			if v := col[i]; !math.IsNaN(float64(v)) {

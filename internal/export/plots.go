@@ -112,6 +112,17 @@ func line(pts plotter.XYs, c color.Color, dashed bool) (*plotter.Line, error) {
 	return l, nil
 }
 
+// dots is a scatter of small round points.
+func dots(pts plotter.XYs, c color.Color, radius float64) (*plotter.Scatter, error) {
+	sc, err := plotter.NewScatter(pts)
+	if err != nil {
+		return nil, err
+	}
+	sc.GlyphStyle.Radius = vg.Points(radius)
+	sc.GlyphStyle.Color = c
+	return sc, nil
+}
+
 func hline(x0, x1, y float64) plotter.XYs { return plotter.XYs{{X: x0, Y: y}, {X: x1, Y: y}} }
 
 func newPlot(title, x, y string) *plot.Plot {
@@ -214,12 +225,10 @@ func ratePlot(b *Bundle) (*plot.Plot, error) {
 	}
 	p := newPlot("Drying rate against moisture", "moisture (dry basis, kg water/kg solids)", "drying rate (g/h)")
 	p.Legend.Top = false // the data fill the top right; the bottom right is empty
-	sc, err := plotter.NewScatter(data)
+	sc, err := dots(data, blue, 1.2)
 	if err != nil {
 		return nil, err
 	}
-	sc.GlyphStyle.Radius = vg.Points(1.2)
-	sc.GlyphStyle.Color = blue
 	p.Add(sc)
 	p.Legend.Add("smoothed rate", sc)
 	if cr := r.ConstantRate; cr != nil && !cr.Ongoing && !math.IsNaN(cr.CriticalDB) {
@@ -244,12 +253,10 @@ func lnMRPlot(b *Bundle) (*plot.Plot, error) {
 		return nil, nil
 	}
 	p := newPlot("ln(moisture ratio) against time", "elapsed time (h)", "ln MR")
-	sc, err := plotter.NewScatter(data)
+	sc, err := dots(data, blue, 1.2)
 	if err != nil {
 		return nil, err
 	}
-	sc.GlyphStyle.Radius = vg.Points(1.2)
-	sc.GlyphStyle.Color = blue
 	p.Add(sc)
 	p.Legend.Add("ln MR", sc)
 	if d := r.Diffusivity; d != nil {
@@ -279,12 +286,10 @@ func modelPlot(dir string, b *Bundle) error {
 		return nil
 	}
 	top := newPlot(fmt.Sprintf("Best model: %s (R² %.4f)", best.Model.Title, best.R2), "", "moisture ratio")
-	sc, err := plotter.NewScatter(data)
+	sc, err := dots(data, blue, 1.2)
 	if err != nil {
 		return err
 	}
-	sc.GlyphStyle.Radius = vg.Points(1.2)
-	sc.GlyphStyle.Color = blue
 	top.Add(sc)
 	top.Legend.Add("data", sc)
 	var curve, res plotter.XYs
@@ -300,12 +305,10 @@ func modelPlot(dir string, b *Bundle) error {
 	top.Add(l)
 	top.Legend.Add(best.Model.Title, l)
 	bottom := newPlot("", "elapsed time (h)", "residual")
-	rs, err := plotter.NewScatter(res)
+	rs, err := dots(res, black, 1)
 	if err != nil {
 		return err
 	}
-	rs.GlyphStyle.Radius = vg.Points(1)
-	rs.GlyphStyle.Color = black
 	bottom.Add(rs)
 	zl, _ := line(hline(x0, x1, 0), grey, true)
 	bottom.Add(zl)

@@ -25,6 +25,29 @@ func (s Stability) String() string {
 	return "unknown"
 }
 
+// Int8 is the stability as the analysis stores it: 1 stable, −1 unstable,
+// 0 not said.
+func (s Stability) Int8() int8 {
+	switch s {
+	case Stable:
+		return 1
+	case Unstable:
+		return -1
+	}
+	return 0
+}
+
+// StabilityOf is the inverse of Int8.
+func StabilityOf(v int8) Stability {
+	switch {
+	case v > 0:
+		return Stable
+	case v < 0:
+		return Unstable
+	}
+	return StabilityUnknown
+}
+
 // LineKind says what a balance line turned out to be.
 type LineKind uint8
 

@@ -298,6 +298,87 @@ func robustSlope(t, m []float64) float64 {
 	return (median(m[len(m)-h:]) - median(m[:h])) / dt
 }
 
+// decimateForSteps bins long series to medians so step finding stays fast.
+func decimateForSteps(t, m []float64, keep []bool, maxN int) ([]float64, []float64, []bool, float64) {
+	var tt, mm []float64
+	for i := range t {
+		if keep[i] {
+			tt = append(tt, t[i])
+			mm = append(mm, m[i])
+		}
+	}
+	if len(tt) > maxN {
+		per := (len(tt) + maxN - 1) / maxN
+		var bt, bm []float64
+		for i := 0; i < len(tt); i += per {
+			j := min(i+per, len(tt))
+			bt = append(bt, median(tt[i:j]))
+			bm = append(bm, median(mm[i:j]))
+		}
+		tt, mm = bt, bm
+	}
+	k := make([]bool, len(tt))
+	for i := range k {
+		k[i] = true
+	}
+	span := 0.0
+	if len(tt) > 1 {
+		span = tt[len(tt)-1] - tt[0]
+	}
+	block := math.Max(5.0/60, 7*span/math.Max(float64(len(tt)-1), 1))
+	return tt, mm, k, block
+}
+
+// refineSteps puts each step at the largest drop between consecutive kept
+// readings within a block of where it was found, and merges steps closer
+// than two blocks (keeping the larger).
+func refineSteps(steps []Step, t, m []float64, keep []bool, blockH float64) []Step {
+	var out []Step
+	for _, st := range steps {
+		prev, best, bestDrop := -1, -1, math.Inf(-1)
+		for i := range t {
+			if !keep[i] {
+				continue
+			}
+			if prev >= 0 && math.Abs(t[i]-st.ElapsedH) <= blockH && m[prev]-m[i] > bestDrop {
+				best, bestDrop = i, m[prev]-m[i]
+			}
+			prev = i
+		}
+		if best >= 0 {
+			st.ElapsedH = t[best]
+		}
+		if n := len(out); n > 0 && st.ElapsedH-out[n-1].ElapsedH <= 2*blockH {
+			if st.MassG > out[n-1].MassG {
+				out[n-1] = st
+			}
+			continue
+		}
+		out = append(out, st)
+	}
+	return out
+}
+
+// filterSteps keeps steps above limit that were not declared.
+func filterSteps(steps []Step, limit float64, declared []float64, blockH float64) []Step {
+	var out []Step
+	for _, s := range steps {
+		if s.MassG <= limit {
+			continue
+		}
+		dup := false
+		for _, d := range declared {
+			if math.Abs(d-s.ElapsedH) <= 2*blockH {
+				dup = true
+			}
+		}
+		if !dup {
+			out = append(out, s)
+		}
+	}
+	return out
+}
+
 // median of v; v is not changed. Quickselect on a copy: linear time on
 // average, which matters for the long windows of dense logs.
 func median(v []float64) float64 {

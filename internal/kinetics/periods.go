@@ -1,6 +1,9 @@
 package kinetics
 
-import "math"
+import (
+	"math"
+	"sort"
+)
 
 // ConstantRate describes a constant-rate period found in the data.
 type ConstantRate struct {
@@ -122,4 +125,45 @@ func FindConstantRate(t, smooth, rate []float64, rateSD, windowH float64) *Const
 	}
 	return &ConstantRate{StartH: t[s], EndH: t[e], RateGPerH: (smooth[s] - smooth[e]) / dur, CriticalDB: math.NaN(),
 		Ongoing: t[last]-t[e] <= 2*windowH}
+}
+
+// steadyAt is the first time the weight has been steady: the linear change
+// over the trailing window is within pct % of the mass. NaN if never.
+func steadyAt(t, m []float64, keep []bool, breaks []float64, windowH, pct float64) float64 {
+	var tt, mm []float64
+	for i := range t {
+		if keep[i] {
+			tt = append(tt, t[i])
+			mm = append(mm, m[i])
+		}
+	}
+	if len(tt) < 10 || tt[len(tt)-1]-tt[0] < windowH {
+		return math.NaN()
+	}
+	step := windowH / 10
+	for end := tt[0] + windowH; end <= tt[len(tt)-1]+1e-9; end += step {
+		lo := sort.SearchFloat64s(tt, end-windowH)
+		hi := sort.SearchFloat64s(tt, end+1e-12)
+		if hi-lo < 5 || crosses(breaks, end-windowH, end) {
+			continue
+		}
+		_, slope, err := LocalPoly(tt[lo:hi], mm[lo:hi], end, 1)
+		if err != nil {
+			continue
+		}
+		level := median(mm[lo:hi])
+		if math.Abs(slope)*windowH <= pct/100*level {
+			return end
+		}
+	}
+	return math.NaN()
+}
+
+func crosses(breaks []float64, from, to float64) bool {
+	for _, b := range breaks {
+		if b > from && b <= to {
+			return true
+		}
+	}
+	return false
 }

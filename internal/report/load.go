@@ -102,13 +102,7 @@ func loadSession(path string, r io.Reader) (*Run, error) {
 			run.Series.TimeH[i] = float64(ms-t0) / 3.6e6
 		}
 	}
-	for _, s := range log.Setups {
-		for k, v := range s.Params {
-			if f, ok := v.(float64); ok {
-				run.Params[k] = f
-			}
-		}
-	}
+	run.Params = log.SetupParams()
 	for _, e := range log.Notes {
 		at := e.T
 		if !e.ReadingT.IsZero() {
@@ -172,13 +166,7 @@ func loadTable(path string, br *bufio.Reader, opt ingest.TableOptions) (*Run, er
 			} else {
 				h = (row.Elapsed - e0).Hours()
 			}
-			st := int8(0)
-			switch row.Stable {
-			case ingest.Stable:
-				st = 1
-			case ingest.Unstable:
-				st = -1
-			}
+			st := row.Stable.Int8()
 			run.Series.TimeH = append(run.Series.TimeH, h)
 			run.Series.Value = append(run.Series.Value, row.MassG)
 			run.Series.Stable = append(run.Series.Stable, st)

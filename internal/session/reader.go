@@ -74,6 +74,20 @@ type Log struct {
 	Skipped  int
 }
 
+// SetupParams merges the numeric setup values of the log, later ones
+// overriding earlier ones.
+func (l *Log) SetupParams() map[string]float64 {
+	out := map[string]float64{}
+	for _, s := range l.Setups {
+		for k, v := range s.Params {
+			if f, ok := v.(float64); ok {
+				out[k] = f
+			}
+		}
+	}
+	return out
+}
+
 // MaxWarnings caps the per-line warnings kept.
 const MaxWarnings = 20
 
