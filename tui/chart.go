@@ -106,14 +106,15 @@ func finiteCount(v []float64) int {
 	return n
 }
 
-// plot draws series with asciigraph in a box of w×h cells (including the
-// y labels). It never panics: fewer than two finite points give a message.
+// plot draws series (all of one length) with asciigraph in a box of w×h
+// cells, y labels included. Fewer than two finite points draw nothing:
+// asciigraph needs two.
 func plot(series [][]float64, w, h int, chars []asciigraph.CharSet, colors []asciigraph.AnsiColor, yfmt string) []string {
 	n := 0
 	for _, s := range series {
 		n += finiteCount(s)
 	}
-	if len(series) == 0 || finiteCount(series[0]) < 2 || h < 2 {
+	if n < 2 || h < 2 {
 		return nil
 	}
 	opts := []asciigraph.Option{
@@ -282,7 +283,10 @@ func (m *Model) moistureChart(w, h int) []string {
 	if m.res != nil && p.TargetH > now && (p.Method == kinetics.ProjExponential || p.Method == kinetics.ProjEquilibrium || p.Method == kinetics.ProjLinear) {
 		proj = m.projected(cols, now, t1, p)
 	}
-	series := [][]float64{data, target, solids, proj}
+	// asciigraph draws in order and a later series covers an earlier one
+	// where they share a cell: the dry solids first, the data and the
+	// projection last.
+	series := [][]float64{solids, target, data, proj}
 	lo, hi := seriesRange(series)
 	yfmt, labW2 := yFormat(lo, hi)
 	cols2 := w - labW2 - 3
@@ -290,10 +294,10 @@ func (m *Model) moistureChart(w, h int) []string {
 		// label width changed with the values: keep the layout, pad instead
 		_ = cols2
 	}
-	chars := []asciigraph.CharSet{{}, {Horizontal: "╌"}, {Horizontal: "═"}, {Horizontal: "·", VerticalLine: ":", ArcDownRight: "·", ArcDownLeft: "·", ArcUpRight: "·", ArcUpLeft: "·"}}
+	chars := []asciigraph.CharSet{{Horizontal: "═"}, {Horizontal: "╌"}, {}, {Horizontal: "·", VerticalLine: ":", ArcDownRight: "·", ArcDownLeft: "·", ArcUpRight: "·", ArcUpLeft: "·"}}
 	var colors []asciigraph.AnsiColor // none on NO_COLOR or monochrome terminals
 	if lipgloss.ColorProfile() != termenv.Ascii {
-		colors = []asciigraph.AnsiColor{asciigraph.Default, asciigraph.Red, asciigraph.Blue, asciigraph.Green}
+		colors = []asciigraph.AnsiColor{asciigraph.Blue, asciigraph.Red, asciigraph.Default, asciigraph.Green}
 	}
 	lines = append(lines, plot(series, w, rows, chars, colors, yfmt)...)
 	left := labW2 + 2
