@@ -49,6 +49,37 @@ func TestTableHeaders(t *testing.T) {
 	}
 }
 
+// Headers other loggers and spreadsheets write: a date and a time column,
+// names in other languages, wet-basis moisture instead of mass.
+func TestTableOtherShapes(t *testing.T) {
+	tb, err := NewTable("Date;Time;Gewicht (g);Temp (°C)", TableOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := tb.Decode("2026-12-02;23:59:50;123,4;60,1")
+	want := time.Date(2026, 12, 2, 23, 59, 50, 0, time.Local)
+	if err != nil || !r.Time.Equal(want) || r.MassG != 123.4 || r.Channels["temp_c"] != 60.1 {
+		t.Fatalf("date and time columns: %+v %v", r, err)
+	}
+	if _, ok := r.Channels["date"]; ok {
+		t.Error("the date column became a channel")
+	}
+	tb, err = NewTable("t (min),moisture (% wb)", TableOptions{AllowMoisture: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err = tb.Decode("30,80")
+	if err != nil || math.Abs(r.MassG-4) > 1e-12 || tb.Quantity != QuantityMoistureDB {
+		t.Fatalf("wet basis 80 %% is X = 4: %+v %v", r, err)
+	}
+	if _, err := tb.Decode("30,120"); err == nil {
+		t.Error("120 %% wet basis accepted")
+	}
+	if _, err := NewTable("t (min),moisture (% wb)", TableOptions{}); err == nil {
+		t.Error("a moisture table must be refused where a mass is needed (the file source)")
+	}
+}
+
 func TestTableHeaderErrors(t *testing.T) {
 	tests := []struct {
 		header string

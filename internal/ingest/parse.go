@@ -193,6 +193,24 @@ func ParseLine(s string, noUnit Unit) Line {
 		pick = lastNumber(toks2, func(*token) bool { return true })
 	case withUnit == 1:
 		pick = lastNumber(toks2, func(t *token) bool { return t.unit != 0 })
+	case numbers == 2 && withUnit == 2:
+		// "1 lb 2.5 oz": a larger unit then a smaller one adds up.
+		var us [2]*token
+		k := 0
+		for i := range toks2 {
+			if toks2[i].isNumber {
+				us[k] = &toks2[i]
+				k++
+			}
+		}
+		if us[0].unit > us[1].unit && us[0].bad == "" && us[1].bad == "" && us[0].value >= 0 && us[1].value >= 0 {
+			st := stab
+			if sawUnstable || us[0].query || us[1].query {
+				st = Unstable
+			}
+			return Line{Kind: LineReading, MassG: us[0].value*float64(us[0].unit) + us[1].value*float64(us[1].unit), Stable: st}
+		}
+		return Line{Kind: LineUnparseable, Reason: "two masses with units on one line"}
 	case decimals <= 1:
 		// Counters, IDs or clock fields are integers; the mass is the last
 		// number, or the only one with a decimal part.

@@ -50,6 +50,8 @@ func TestParseLine(t *testing.T) {
 		{"tab separated", "S\t99.99\tg", LineReading, 99.99, Stable},
 		{"leading point", ".50 g", LineReading, 0.5, StabilityUnknown},
 		{"zero", "0.00 g", LineReading, 0, StabilityUnknown},
+		{"pounds and ounces", "1 lb 2.5 oz", LineReading, 453.59237 + 2.5*28.349523125, StabilityUnknown},
+		{"two masses", "1 g 2 kg", LineUnparseable, 0, StabilityUnknown},
 		{"blank", "", LineBlank, 0, StabilityUnknown},
 		{"only spaces", "     ", LineBlank, 0, StabilityUnknown},
 		{"overload word", "  OL", LineOverload, 0, StabilityUnknown},

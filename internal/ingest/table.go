@@ -42,6 +42,11 @@ type Table struct {
 	// Quantity is what the value column holds: QuantityMass (grams after
 	// the unit), QuantityMoistureDB or QuantityMR (taken as they are).
 	Quantity string
+	// DateIdx is a separate date column whose time-of-day partner is the
+	// time column ("Date,Time,Weight"); -1 if none.
+	DateIdx  int
+	wetBasis bool // the value column is wet-basis moisture, converted to dry basis
+	wbPct    bool // ... given in percent
 	Channels []Channel
 	comma    bool // decimal comma allowed in numbers (; or tab delimited)
 }
@@ -65,7 +70,7 @@ type Row struct {
 // what was expected.
 func NewTable(header string, opt TableOptions) (*Table, error) {
 	header = strings.TrimPrefix(strings.TrimRight(header, "\r\n"), "\ufeff")
-	tb := &Table{Delim: sniffDelim(header), TimeIdx: -1, MassIdx: -1, StableIdx: -1}
+	tb := &Table{Delim: sniffDelim(header), TimeIdx: -1, MassIdx: -1, StableIdx: -1, DateIdx: -1}
 	tb.comma = tb.Delim != ','
 	tb.Header = splitRow(header, tb.Delim)
 	if len(tb.Header) < 2 {
@@ -82,6 +87,11 @@ func NewTable(header string, opt TableOptions) (*Table, error) {
 		if opt.MassCol == "" && opt.AllowMoisture {
 			if i, e := pickColumn(tb.Header, "", isMoistureDBName, "moisture"); e == nil {
 				tb.MassIdx, tb.Quantity, err = i, QuantityMoistureDB, nil
+			} else if i, e := pickColumn(tb.Header, "", isMoistureWBName, "moisture"); e == nil {
+				// wet basis in the file, dry basis in the analysis
+				h := strings.ToLower(tb.Header[i])
+				tb.MassIdx, tb.Quantity, err = i, QuantityMoistureDB, nil
+				tb.wetBasis, tb.wbPct = true, strings.Contains(h, "%") || strings.Contains(h, "pct")
 			} else if i, e := pickColumn(tb.Header, "", isMRName, "moisture ratio"); e == nil {
 				tb.MassIdx, tb.Quantity, err = i, QuantityMR, nil
 			}
@@ -112,6 +122,10 @@ func NewTable(header string, opt TableOptions) (*Table, error) {
 		tb.MassUnit = u
 	}
 	for i, h := range tb.Header {
+		if base, _ := splitUnit(h); (base == "date" || base == "day") && i != tb.TimeIdx {
+			tb.DateIdx = i
+			continue
+		}
 		if i == tb.TimeIdx || i == tb.MassIdx || strings.TrimSpace(h) == "" {
 			continue
 		}
@@ -135,19 +149,15 @@ func (tb *Table) Decode(line string) (Row, error) {
 	}
 	var r Row
 	ts := strings.TrimSpace(f[tb.TimeIdx])
-	if t, ok := parseClock(ts); ok {
-		r.Time = t
-	} else if d, ok := parseHMS(ts); ok {
-		r.Elapsed = d
-		tb.Elapsed = true
-	} else if v, ok := tb.number(ts); ok {
-		if tb.TimeUnit == 0 {
-			return Row{}, fmt.Errorf("time %q has no unit: name the column like elapsed_s, time (min) or t [h], or pass --time-unit", ts)
+	if tb.DateIdx >= 0 && tb.DateIdx < len(f) {
+		if t, ok := parseDateAndTime(strings.TrimSpace(f[tb.DateIdx]), ts); ok {
+			r.Time = t
 		}
-		r.Elapsed = time.Duration(v * float64(tb.TimeUnit))
-		tb.Elapsed = true
-	} else {
-		return Row{}, fmt.Errorf("time %q in column %q is neither an RFC 3339 time nor a number", clipRaw(ts), tb.Header[tb.TimeIdx])
+	}
+	if r.Time.IsZero() {
+		if err := tb.decodeTime(ts, &r); err != nil {
+			return Row{}, err
+		}
 	}
 	ms := strings.TrimSpace(f[tb.MassIdx])
 	v, ok := tb.number(ms)
@@ -155,6 +165,18 @@ func (tb *Table) Decode(line string) (Row, error) {
 		return Row{}, fmt.Errorf("mass %q in column %q is not a number", clipRaw(ms), tb.Header[tb.MassIdx])
 	}
 	r.MassG = v * float64(tb.MassUnit)
+	if tb.wetBasis {
+		w := v
+		if tb.wbPct || v > 1 {
+			w = v / 100
+		}
+		if !(w >= 0 && w < 1) {
+			return Row{}, fmt.Errorf("wet-basis moisture %q in column %q is not between 0 and 100 %%", ms, tb.Header[tb.MassIdx])
+		}
+		r.MassG = w / (1 - w)
+	} else if tb.Quantity != QuantityMass {
+		r.MassG = v
+	}
 	if tb.StableIdx >= 0 && tb.StableIdx < len(f) {
 		switch strings.ToLower(strings.TrimSpace(f[tb.StableIdx])) {
 		case "1", "true", "yes", "y", "s", "st", "stable":
@@ -175,6 +197,30 @@ func (tb *Table) Decode(line string) (Row, error) {
 		}
 	}
 	return r, nil
+}
+
+// decodeTime reads the time column: a clock time, h:mm:ss elapsed, or a
+// number in the column's time unit.
+func (tb *Table) decodeTime(ts string, r *Row) error {
+	if t, ok := parseClock(ts); ok {
+		r.Time = t
+		return nil
+	}
+	if d, ok := parseHMS(ts); ok {
+		r.Elapsed = d
+		tb.Elapsed = true
+		return nil
+	}
+	v, ok := tb.number(ts)
+	if !ok {
+		return fmt.Errorf("time %q in column %q is neither an RFC 3339 time nor a number", clipRaw(ts), tb.Header[tb.TimeIdx])
+	}
+	if tb.TimeUnit == 0 {
+		return fmt.Errorf("time %q has no unit: name the column like elapsed_s, time (min) or t [h], or pass --time-unit", ts)
+	}
+	r.Elapsed = time.Duration(v * float64(tb.TimeUnit))
+	tb.Elapsed = true
+	return nil
 }
 
 func (tb *Table) number(s string) (float64, bool) {
@@ -269,7 +315,8 @@ func ParseTimeUnit(s string) (time.Duration, error) {
 
 func isTimeName(base string) int {
 	switch base {
-	case "time", "t", "elapsed", "elapsed time", "elapsed_time", "timestamp", "datetime", "date_time", "date time", "clock":
+	case "time", "t", "elapsed", "elapsed time", "elapsed_time", "timestamp", "datetime", "date_time", "date time", "clock",
+		"zeit", "tiempo", "temps", "tempo", "tijd":
 		return 2
 	}
 	if strings.HasPrefix(base, "time") || strings.HasPrefix(base, "elapsed") {
@@ -289,6 +336,17 @@ func isMoistureDBName(base string) int {
 	return 0
 }
 
+func isMoistureWBName(base string) int {
+	switch base {
+	case "moisture_wb", "moisture wb", "mc_wb", "mc wb", "moisture_wb_pct", "x_wb", "wet basis", "wet_basis", "moisture (% wb)", "mc (% wb)", "moisture content":
+		return 2
+	}
+	if strings.Contains(base, "wet basis") || strings.Contains(base, "wet_basis") || strings.HasSuffix(base, "_wb") || strings.Contains(base, "% wb") {
+		return 1
+	}
+	return 0
+}
+
 func isMRName(base string) int {
 	switch base {
 	case "mr", "moisture ratio", "moisture_ratio":
@@ -299,7 +357,8 @@ func isMRName(base string) int {
 
 func isMassName(base string) int {
 	switch base {
-	case "mass", "weight", "m", "w", "wt", "net", "net weight", "net_weight", "sample mass", "sample_mass", "reading":
+	case "mass", "weight", "m", "w", "wt", "net", "net weight", "net_weight", "net wt", "sample mass", "sample_mass", "reading",
+		"masse", "gewicht", "peso", "poids", "massa", "gewicht netto":
 		return 2
 	}
 	if strings.HasPrefix(base, "mass") || strings.HasPrefix(base, "weight") {
@@ -390,6 +449,24 @@ func parseClock(s string) (time.Time, bool) {
 	for _, layout := range []string{"2006-01-02T15:04:05.999999999", "2006-01-02 15:04:05.999999999"} {
 		if t, err := time.ParseInLocation(layout, s, time.Local); err == nil {
 			return t, true
+		}
+	}
+	return time.Time{}, false
+}
+
+// parseDateAndTime joins a date column (2026-12-02, 2026/12/02 or
+// 02.12.2026) and a time-of-day column (15:04:05, 15:04) into a local time.
+func parseDateAndTime(date, clock string) (time.Time, bool) {
+	for _, dl := range []string{"2006-01-02", "2006/01/02", "02.01.2006"} {
+		d, err := time.ParseInLocation(dl, date, time.Local)
+		if err != nil {
+			continue
+		}
+		for _, tl := range []string{"15:04:05.999999999", "15:04:05", "15:04"} {
+			if c, err := time.Parse(tl, clock); err == nil {
+				return d.Add(time.Duration(c.Hour())*time.Hour + time.Duration(c.Minute())*time.Minute +
+					time.Duration(c.Second())*time.Second + time.Duration(c.Nanosecond())), true
+			}
 		}
 	}
 	return time.Time{}, false
