@@ -185,7 +185,7 @@ func Analyze(s Series, setup Setup, opt Options) (*Result, error) {
 		// Transient spikes first, so they are not taken for steps; the
 		// readings they cost near a real step come back below.
 		noSpikes := append([]bool(nil), keep...)
-		RejectSpikes(t, pts.NetG, noSpikes, blockH, declared, floor)
+		RejectSpikes(t, pts.NetG, noSpikes, blockH, declared, floor, 1)
 		limit := math.Max(math.Max(15*r.NoiseSD, 5*res), 0.005*medMass)
 		dt, dm, dk, dblock := decimateForSteps(t, pts.NetG, noSpikes, 20000)
 		steps := filterSteps(FindSteps(dt, dm, dk, dblock, limit, declared), limit, declared, blockH)
@@ -198,7 +198,7 @@ func Analyze(s Series, setup Setup, opt Options) (*Result, error) {
 	sort.Float64s(breaks)
 	// With fewer than 20 readings a spike cannot be told from the curve:
 	// keep them all.
-	if len(km) >= 20 && RejectSpikes(t, pts.NetG, keep, blockH, breaks, floor) > 0 {
+	if len(km) >= 20 && RejectSpikes(t, pts.NetG, keep, blockH, breaks, floor, 2) > 0 {
 		for i := range keep {
 			if !keep[i] && pts.Reject[i] == KeepOK {
 				pts.Reject[i] = RejSpike

@@ -168,16 +168,16 @@ func buildTrend(t, m []float64, keep []bool, w float64, breaks []float64) *trend
 // says which readings are candidates (stable, positive); on return spikes
 // are cleared. breaks are times of steps (removals) the trend must not
 // smooth over. The limit at each reading is six robust standard deviations
-// of the residuals in its neighbourhood (three blocks), so a curve that
-// bends hard early in a run is not mistaken for spikes, and never below
-// floorG. It returns the number rejected.
-func RejectSpikes(t, m []float64, keep []bool, blockH float64, breaks []float64, floorG float64) int {
+// of the residuals in its neighbourhood (the median of three blocks' own
+// scales), so a curve that bends hard early in a run is not mistaken for
+// spikes; never below floorG. passes is how many times the trend is
+// rebuilt without the spikes found. It returns the number rejected.
+func RejectSpikes(t, m []float64, keep []bool, blockH float64, breaks []float64, floorG float64, passes int) int {
 	rejected := 0
-	for pass := 0; pass < 2; pass++ {
+	for pass := 0; pass < passes; pass++ {
 		tr := buildTrend(t, m, keep, blockH, breaks)
-		// residuals per block of time
 		res := make([]float64, len(t))
-		blocks := map[int][]float64{}
+		var blocks [][]float64
 		t0 := math.NaN()
 		for i := range t {
 			if !keep[i] {
@@ -188,19 +188,33 @@ func RejectSpikes(t, m []float64, keep []bool, blockH float64, breaks []float64,
 			}
 			res[i] = math.Abs(m[i] - tr.at(t[i]))
 			b := int((t[i] - t0) / blockH)
+			for len(blocks) <= b {
+				blocks = append(blocks, nil)
+			}
 			blocks[b] = append(blocks[b], res[i])
 		}
 		if len(blocks) == 0 {
 			return rejected
 		}
-		scale := map[int]float64{}
+		own := make([]float64, len(blocks))
+		for b, r := range blocks {
+			own[b] = math.NaN()
+			if len(r) > 0 {
+				own[b] = median(r)
+			}
+		}
+		scale := make([]float64, len(blocks))
+		var near []float64
 		for b := range blocks {
-			var near []float64
+			near = near[:0]
 			for d := -1; d <= 1; d++ {
-				near = append(near, blocks[b+d]...)
+				if k := b + d; k >= 0 && k < len(own) && !math.IsNaN(own[k]) {
+					near = append(near, own[k])
+				}
 			}
 			scale[b] = 1.4826 * median(near)
 		}
+		found := 0
 		for i := range t {
 			if !keep[i] {
 				continue
@@ -208,8 +222,12 @@ func RejectSpikes(t, m []float64, keep []bool, blockH float64, breaks []float64,
 			b := int((t[i] - t0) / blockH)
 			if res[i] > math.Max(6*scale[b], floorG) {
 				keep[i] = false
-				rejected++
+				found++
 			}
+		}
+		rejected += found
+		if found == 0 {
+			break
 		}
 	}
 	return rejected
