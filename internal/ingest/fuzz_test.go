@@ -1,6 +1,7 @@
 package ingest
 
 import (
+	"fmt"
 	"math"
 	"strings"
 	"testing"
@@ -58,6 +59,23 @@ func FuzzTable(f *testing.F) {
 		r, err := tb.Decode(row)
 		if err == nil && (math.IsNaN(r.MassG) || math.IsInf(r.MassG, 0)) {
 			t.Fatalf("row %q under %q gave mass %v", row, header, r.MassG)
+		}
+	})
+}
+
+// A mass written the way balances write it comes back.
+func FuzzParseRoundTrip(f *testing.F) {
+	f.Add(123.45, uint8(0))
+	f.Add(-0.01, uint8(3))
+	f.Fuzz(func(t *testing.T, mass float64, shape uint8) {
+		if math.IsNaN(mass) || math.IsInf(mass, 0) || math.Abs(mass) > 1e9 {
+			return
+		}
+		formats := []string{"S S %10.2f g", "ST,GS,%+011.2fg", "%.3f", "US %9.2f g ?", "%10.2f g  S"}
+		line := fmt.Sprintf(formats[int(shape)%len(formats)], mass)
+		l := ParseLine(line, Gram)
+		if l.Kind != LineReading || math.Abs(l.MassG-mass) > 0.0051 {
+			t.Fatalf("%q: %v %v, want %v", line, l.Kind, l.MassG, mass)
 		}
 	})
 }

@@ -266,6 +266,16 @@ func isSep(c byte) bool {
 func isBoundary(s string, i int) bool {
 	c := s[i]
 	if c == ',' && i > 0 && i+1 < len(s) && isDigit(s[i-1]) && isDigit(s[i+1]) {
+		// Inside a number as a decimal comma ("123,45") or a thousands
+		// comma ("1,234.5", "1,234,567"); between fields otherwise
+		// ("1,12.34": a counter, then the mass).
+		d := 0
+		for i+1+d < len(s) && isDigit(s[i+1+d]) {
+			d++
+		}
+		if next := i + 1 + d; next < len(s) && (s[next] == '.' || s[next] == ',') {
+			return d != 3
+		}
 		return false
 	}
 	return isSep(c)
@@ -308,6 +318,22 @@ func tokenize(s string, out []token) int {
 			i = j
 			continue
 		}
+		// Letters stuck to a number ("N+123.4g", "ST+0012.34g") are a word of
+		// their own, unless they make an error code ("E01", "Err4").
+		if p := letterPrefix(w); p > 0 && p < len(w) && n+1 < len(out) && !isErrorCode(w, p) {
+			out[n] = token{start: i, end: i + p}
+			n++
+			i += p
+			w = s[i:j]
+			if w == "-" || w == "+" {
+				sign = 1
+				if w == "-" {
+					sign = -1
+				}
+				i = j
+				continue
+			}
+		}
 		t := token{start: i, end: j}
 		scanNumber(w, &t)
 		if t.isNumber && sign < 0 {
@@ -319,6 +345,53 @@ func tokenize(s string, out []token) int {
 		i = j
 	}
 	return n
+}
+
+// groupsOfThree reports whether every separator in num is followed by
+// exactly three digits (thousands grouping).
+func groupsOfThree(num string) bool {
+	seps := 0
+	for i := 0; i < len(num); i++ {
+		if num[i] == '.' || num[i] == ',' {
+			seps++
+			d := 0
+			for i+1+d < len(num) && isDigit(num[i+1+d]) {
+				d++
+			}
+			if d != 3 || i == 0 {
+				return false
+			}
+		}
+	}
+	return seps > 1
+}
+
+// letterPrefix is the length of the letters at the start of w when a sign
+// or a digit follows them, else 0.
+func letterPrefix(w string) int {
+	p := 0
+	for p < len(w) && isLetter(w[p]) {
+		p++
+	}
+	if p == 0 || p > 4 || p >= len(w) {
+		return 0
+	}
+	if c := w[p]; c == '+' || c == '-' || isDigit(c) {
+		return p
+	}
+	return 0
+}
+
+// isErrorCode: "E01", "Err4", "ERR12": an error letter or word and digits.
+func isErrorCode(w string, p int) bool {
+	rest := w[p:]
+	for i := 0; i < len(rest); i++ {
+		if !isDigit(rest[i]) {
+			return false
+		}
+	}
+	pre := strings.ToLower(w[:p])
+	return pre == "e" || strings.HasPrefix(pre, "err")
 }
 
 // scanNumber decodes w as [sign...][digits][sep digits][unit][?] when it is
@@ -379,6 +452,8 @@ func scanNumber(w string, t *token) {
 		decimalAt = lastSep - start
 	case dots > 0 && commas > 0 && (w[lastSep] == '.' && dots == 1 || w[lastSep] == ',' && commas == 1):
 		decimalAt = lastSep - start // the other kind groups thousands
+	case (dots == 0 || commas == 0) && groupsOfThree(num):
+		// "1,234,567" or "1.234.567": thousands only
 	default:
 		t.bad = fmt.Sprintf("number %q has more than one decimal separator", num)
 		return
