@@ -283,7 +283,9 @@ func (m *Model) maybeAnalyze() tea.Cmd {
 	if m.analysing || !m.dirty || len(m.th) == 0 {
 		return nil
 	}
-	if m.res != nil && m.opt.Now().Sub(m.lastRun) < m.opt.AnalyzeEvery {
+	// Wait between analyses, unless the last one saw less than half of
+	// what is here now (a log still loading at start).
+	if m.res != nil && 2*m.resN >= len(m.th) && m.opt.Now().Sub(m.lastRun) < m.opt.AnalyzeEvery {
 		return nil
 	}
 	m.analysing, m.dirty, m.lastRun = true, false, m.opt.Now()
