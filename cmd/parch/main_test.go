@@ -261,3 +261,27 @@ func TestRecordSerialPort(t *testing.T) {
 		t.Fatalf("record after SIGTERM: %v", err)
 	}
 }
+
+// Run parameters given to `parch record` and, the day after, to
+// `parch note --set` land in the log as setup lines that report uses.
+func TestSetupIntoTheLog(t *testing.T) {
+	dir := t.TempDir()
+	log := filepath.Join(dir, "s.jsonl")
+	if _, stderr, code := parch(t, dir, "record", "--demo", "--speed", "0", "--session", log, "--status", "0", "--initial-moisture", "86.5", "--target", "18"); code != 0 {
+		t.Fatal(stderr)
+	}
+	if _, stderr, code := parch(t, dir, "note", "--session", log, "--set", "dry_mass_g=26.5"); code != 0 {
+		t.Fatal(stderr)
+	}
+	if _, stderr, code := parch(t, dir, "note", "--session", log, "--set", "dry_mas=26.5"); code != 2 || !strings.Contains(stderr, "unknown key") {
+		t.Errorf("typo in a key: exit %d %s", code, stderr)
+	}
+	l, err := session.Load(log)
+	if err != nil {
+		t.Fatal(err)
+	}
+	p := l.SetupParams()
+	if p["initial_moisture_wb_pct"] != 86.5 || p["target_moisture_wb_pct"] != 18 || p["dry_mass_g"] != 26.5 {
+		t.Fatalf("setup in the log: %v", p)
+	}
+}

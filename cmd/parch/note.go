@@ -3,10 +3,13 @@ package main
 import (
 	"fmt"
 	"io"
+	"math"
 	"regexp"
+	"strconv"
 	"strings"
 	"time"
 
+	"parch/internal/report"
 	"parch/internal/session"
 )
 
@@ -24,21 +27,71 @@ var noteKinds = []struct{ kind, help string }{
 
 var kindPattern = regexp.MustCompile(`^[a-z][a-z0-9_]*$`)
 
+// setupKeys are the run parameters a session log's setup lines carry.
+var setupKeys = []string{report.KeyInitialMoistureWB, report.KeyDryMass, report.KeyTare, report.KeyInitialMass,
+	report.KeyTargetWB, report.KeyTargetDB, report.KeyEquilibriumDB, report.KeyArea, report.KeyThickness,
+	report.KeyFaces, report.KeySteadyPct, report.KeySteadyWindowH}
+
+// setValues collects --set KEY=VALUE.
+type setValues map[string]float64
+
+func (s *setValues) String() string { return fmt.Sprint(map[string]float64(*s)) }
+
+func (s *setValues) Set(v string) error {
+	k, val, ok := strings.Cut(v, "=")
+	if !ok {
+		return fmt.Errorf("expected KEY=VALUE like dry_mass_g=27.1")
+	}
+	k = strings.TrimSpace(k)
+	known := false
+	for _, sk := range setupKeys {
+		known = known || sk == k
+	}
+	if !known {
+		return fmt.Errorf("unknown key %q; keys: %s", k, strings.Join(setupKeys, ", "))
+	}
+	f, err := strconv.ParseFloat(strings.TrimSpace(val), 64)
+	if err != nil || math.IsNaN(f) || math.IsInf(f, 0) {
+		return fmt.Errorf("%s=%q: expected a number", k, val)
+	}
+	if *s == nil {
+		*s = setValues{}
+	}
+	(*s)[k] = f
+	return nil
+}
+
 func runNote(args []string, stdout, stderr io.Writer) error {
 	var kinds strings.Builder
 	for _, k := range noteKinds {
 		fmt.Fprintf(&kinds, "\n    %-17s %s", k.kind, k.help)
 	}
-	fs := newFlagSet("note", "note --session FILE [--kind KIND] [--value N] TEXT...\n\nKinds:"+kinds.String(), stderr)
+	fs := newFlagSet("note", "note --session FILE [--kind KIND] [--value N] TEXT...\n   or: parch note --session FILE --set KEY=VALUE ...\n\nKinds:"+kinds.String(), stderr)
 	path := fs.String("session", "", "session log `FILE` to add the note to (required)")
 	kind := fs.String("kind", "note", "what kind of note (see the list above)")
 	value := fs.String("value", "", "a number that goes with the note: grams removed, new setpoint °C...")
+	var sets setValues
+	fs.Var(&sets, "set", "record a run parameter instead, `KEY=VALUE` (repeatable), e.g. dry_mass_g=27.1 the day after; keys: "+strings.Join(setupKeys, ", "))
 	pos, err := parseFlags(fs, args)
 	if err != nil {
 		return err
 	}
 	if *path == "" {
 		return usagef("--session FILE is required: the session log being recorded")
+	}
+	if len(sets) > 0 {
+		if len(pos) > 0 || *value != "" {
+			return usagef("--set records run parameters; give a note without --set")
+		}
+		e := session.Event{Type: session.TypeSetup, T: time.Now(), Params: map[string]any{}}
+		for k, v := range sets {
+			e.Params[k] = v
+		}
+		if err := session.AppendOnce(*path, &e); err != nil {
+			return err
+		}
+		fmt.Fprintf(stdout, "recorded %d setup value(s) in %s\n", len(sets), *path)
+		return nil
 	}
 	if !kindPattern.MatchString(*kind) {
 		return usagef("--kind %q: expected lower-case words joined by underscores, e.g. bend_test_passed", *kind)

@@ -18,6 +18,8 @@ func runRecord(args []string, stdout, stderr io.Writer) error {
 	fs := newFlagSet("record", "record (--port DEVICE | --follow FILE | --demo) [--session FILE] [flags]", stderr)
 	var src sourceFlags
 	src.register(fs)
+	var sf setupFlags
+	sf.register(fs)
 	status := fs.Duration("status", 10*time.Second, "how often to print a status line (0: never)")
 	pos, err := parseFlags(fs, args)
 	if err != nil {
@@ -26,6 +28,11 @@ func runRecord(args []string, stdout, stderr io.Writer) error {
 	if len(pos) > 0 {
 		return usagef("unexpected argument %q (the session file goes after --session)", pos[0])
 	}
+	params, err := sf.params()
+	if err != nil {
+		return err
+	}
+	src.setup = params
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
 	return record(ctx, &src, *status, func(s recorder.Stats) string { return statusLine(time.Now(), s) }, stdout, stderr)
@@ -50,6 +57,12 @@ func record(ctx context.Context, sf *sourceFlags, statusEvery time.Duration, sta
 		fmt.Fprintf(stdout, "appending to existing session log %s\n", path)
 	} else {
 		fmt.Fprintf(stdout, "recording %s into %s\n", what, path)
+	}
+	if len(sf.setup) > 0 {
+		if err := log.Append(&session.Event{Type: session.TypeSetup, T: now, Params: anyMap(sf.setup)}); err != nil {
+			log.Close()
+			return err
+		}
 	}
 	rec := &recorder.Recorder{Log: log, Stall: sf.stall}
 	runErr := rec.Run(ctx, source, statusEvery, func(s recorder.Stats) {

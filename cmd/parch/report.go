@@ -19,6 +19,7 @@ func runReport(args []string, stdout, stderr io.Writer) error {
 	fs := newFlagSet("report", "report FILE [--out DIR] [flags]   (FILE: a session log or a CSV/TSV)", stderr)
 	var sf setupFlags
 	sf.register(fs)
+	sf.registerAnalysis(fs)
 	format := fs.String("format", "text", "output: text, json, or csv (readings.csv to standard output)")
 	out := fs.String("out", "", "write the full record into the folder `DIR`: readings.csv, notes.csv, summary.json, report.md, plots")
 	force := fs.Bool("force", false, "with --out: write into a folder that exists")

@@ -75,6 +75,11 @@ func (sf *setupFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&sf.faces, "faces", 0, "drying faces: 1 on a solid tray, 2 on a mesh (default 2)")
 	num("steady-pct", report.KeySteadyPct, "end of run when the weight changes less than this `PCT` over --steady-window (default 0.5)")
 	num("steady-window", report.KeySteadyWindowH, "window for the end-of-run test, `HOURS` (default 1)")
+}
+
+// registerAnalysis adds the flags that only make sense when analysing a
+// recorded run.
+func (sf *setupFlags) registerAnalysis(fs *flag.FlagSet) {
 	fs.Var(&sf.removed, "removed", "a piece removed, `ELAPSED=GRAMS` like 6h=4.2 (repeatable)")
 	fs.StringVar(&sf.until, "until", "", "analyse only the data up to `ELAPSED` (like 6h): what was known then")
 }

@@ -36,6 +36,7 @@ type sourceFlags struct {
 	speed float64
 
 	session string
+	setup   map[string]float64 // run parameters to record at the start (record's setup flags)
 }
 
 func (s *sourceFlags) register(fs *flag.FlagSet) {

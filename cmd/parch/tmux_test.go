@@ -91,7 +91,7 @@ func TestDashboardInTmux(t *testing.T) {
 		}
 		kinds[n.Kind] = v
 	}
-	if _, ok := kinds["bend_test_passed"]; !ok || kinds["piece_removed"] != 2.5 || l.Readings.Len() < 50 {
+	if _, ok := kinds["bend_test_passed"]; !ok || kinds["piece_removed"] != 2.5 || l.Readings.Len() < 10 {
 		t.Fatalf("log: %d readings, notes %v", l.Readings.Len(), kinds)
 	}
 	// parch report on the same log agrees: the removal is applied.
@@ -108,5 +108,60 @@ func TestDashboardInTmux(t *testing.T) {
 	json.Unmarshal([]byte(out), &rep)
 	if len(rep.Removed) != 1 || rep.Removed[0].MassG != 2.5 || len(rep.Notes) != 2 {
 		t.Fatalf("report: removed %v, %d notes", rep.Removed, len(rep.Notes))
+	}
+}
+
+// Watching a log that `parch record` writes: notes go into it, and quitting
+// the watcher leaves the recording running.
+func TestWatchAttachedInTmux(t *testing.T) {
+	if _, err := exec.LookPath("tmux"); err != nil {
+		t.Skip("tmux is not installed (.ci/run installs it)")
+	}
+	dir := t.TempDir()
+	log := filepath.Join(dir, "rec.jsonl")
+	rec := exec.Command(binary, "record", "--demo", "--speed", "100", "--session", log, "--status", "0")
+	if err := rec.Start(); err != nil {
+		t.Fatal(err)
+	}
+	defer rec.Process.Kill()
+	time.Sleep(time.Second)
+	sock := fmt.Sprintf("parch-test-attach-%d", os.Getpid())
+	tmux := func(args ...string) string {
+		out, _ := exec.Command("tmux", append([]string{"-L", sock}, args...)...).CombinedOutput()
+		return string(out)
+	}
+	defer tmux("kill-server")
+	tmux("new-session", "-d", "-x", "80", "-y", "24", "-s", "w", fmt.Sprintf("%s watch --session %s; echo WATCH-EXITED $?; sleep 30", binary, log))
+	wait := func(what string) {
+		t.Helper()
+		deadline := time.Now().Add(20 * time.Second)
+		for !strings.Contains(tmux("capture-pane", "-p", "-t", "w"), what) {
+			if time.Now().After(deadline) {
+				t.Fatalf("timed out waiting for %q:\n%s", what, tmux("capture-pane", "-p", "-t", "w"))
+			}
+			time.Sleep(200 * time.Millisecond)
+		}
+	}
+	wait("watching")
+	wait("● live")
+	tmux("send-keys", "-t", "w", "c")
+	wait("case hardening seen")
+	tmux("send-keys", "-t", "w", "q") // not recording here: no question
+	wait("WATCH-EXITED 0")
+	before, _ := session.Load(log)
+	time.Sleep(1500 * time.Millisecond)
+	after, err := session.Load(log)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if after.Readings.Len() <= before.Readings.Len() {
+		t.Fatal("the recording stopped with the watcher")
+	}
+	if len(after.Notes) != 1 || after.Notes[0].Kind != "case_hardening" {
+		t.Fatalf("notes %+v", after.Notes)
+	}
+	rec.Process.Signal(os.Interrupt)
+	if err := rec.Wait(); err != nil {
+		t.Fatalf("recorder: %v", err)
 	}
 }
