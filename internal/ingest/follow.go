@@ -110,15 +110,14 @@ func (f *Follow) Run(ctx context.Context, out chan<- []Event) error {
 }
 
 type followState struct {
-	f        *Follow
-	file     *os.File
-	info     os.FileInfo
-	offset   int64
-	tail     []byte // the bytes just before offset, to detect a rewrite
-	sp       Splitter
-	dec      lineDecoder
-	header   bool // the first line has been read
-	replaced bool
+	f      *Follow
+	file   *os.File
+	info   os.FileInfo
+	offset int64
+	tail   []byte // the bytes just before offset, to detect a rewrite
+	sp     Splitter
+	dec    lineDecoder
+	header bool // the first line has been read
 }
 
 func (st *followState) open() error {

@@ -284,5 +284,3 @@ func (e *expFit) solve(target float64) (float64, float64) {
 	}
 	return t, math.Sqrt(v)
 }
-
-func fmtG(g float64) string { return fmt.Sprintf("%.2f g", g) }
