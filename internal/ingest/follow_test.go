@@ -75,6 +75,12 @@ func TestTableOtherShapes(t *testing.T) {
 	if _, err := tb.Decode("30,120"); err == nil {
 		t.Error("120 %% wet basis accepted")
 	}
+	// A logger that writes the balance's own text into the cell.
+	tb, _ = NewTable("timestamp,weight", TableOptions{})
+	r, err = tb.Decode("2026-12-02T08:00:00Z,US   0.1234 kg")
+	if err != nil || math.Abs(r.MassG-123.4) > 1e-9 || r.Stable != Unstable {
+		t.Fatalf("balance text in a cell: %+v %v", r, err)
+	}
 	if _, err := NewTable("t (min),moisture (% wb)", TableOptions{}); err == nil {
 		t.Error("a moisture table must be refused where a mass is needed (the file source)")
 	}

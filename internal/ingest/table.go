@@ -161,10 +161,20 @@ func (tb *Table) Decode(line string) (Row, error) {
 	}
 	ms := strings.TrimSpace(f[tb.MassIdx])
 	v, ok := tb.number(ms)
-	if !ok {
-		return Row{}, fmt.Errorf("mass %q in column %q is not a number", clipRaw(ms), tb.Header[tb.MassIdx])
+	switch {
+	case ok:
+		r.MassG = v * float64(tb.MassUnit)
+	case tb.Quantity == QuantityMass:
+		// A cell as a balance writes it ("ST 123.45 g"): the line parser
+		// reads it, unit and stability included.
+		l := ParseLine(ms, tb.MassUnit)
+		if l.Kind != LineReading {
+			return Row{}, fmt.Errorf("mass %q in column %q is not a number", clipRaw(ms), tb.Header[tb.MassIdx])
+		}
+		v, r.MassG, r.Stable = l.MassG, l.MassG, l.Stable
+	default:
+		return Row{}, fmt.Errorf("%s %q in column %q is not a number", tb.Quantity, clipRaw(ms), tb.Header[tb.MassIdx])
 	}
-	r.MassG = v * float64(tb.MassUnit)
 	if tb.wetBasis {
 		w := v
 		if tb.wbPct || v > 1 {
@@ -177,7 +187,7 @@ func (tb *Table) Decode(line string) (Row, error) {
 	} else if tb.Quantity != QuantityMass {
 		r.MassG = v
 	}
-	if tb.StableIdx >= 0 && tb.StableIdx < len(f) {
+	if tb.StableIdx >= 0 && tb.StableIdx < len(f) && r.Stable == StabilityUnknown {
 		switch strings.ToLower(strings.TrimSpace(f[tb.StableIdx])) {
 		case "1", "true", "yes", "y", "s", "st", "stable":
 			r.Stable = Stable
