@@ -300,6 +300,9 @@ func WriteText(w io.Writer, s Summary) error {
 				flag = " (not converged)"
 			} else if m.Degenerate {
 				flag = " (degenerate)"
+				if strings.HasPrefix(m.Note, "not physical") {
+					flag = " (not physical)"
+				}
 			}
 			p("%s%-17s %-9s %-9s %-10s %-9s %s%s\n", mark, m.Name, v(m.R2, "%.5f", ""), v(m.RMSE, "%.5f", ""), v(m.Chi2, "%.3g", ""), v(m.AIC, "%.1f", ""), strings.Join(ps, " "), flag)
 		}
