@@ -121,3 +121,28 @@ func TestProjectionFromPartialRun(t *testing.T) {
 }
 
 func rel(got, want float64) float64 { return math.Abs(got-want) / math.Abs(want) }
+
+// The projection history replays what the projection said during the run:
+// it ends at "reached", and once a third of the way in it stays within
+// 15 % of the true remaining time.
+func TestProjectionHistory(t *testing.T) {
+	s, m := simulated(t, simulate.AppleRings(), 2)
+	setup := demoSetup()
+	r, err := kinetics.Analyze(s, setup, kinetics.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := trueReached(m, kinetics.WetToDry(0.18))
+	h := r.ProjectionHistory(s, setup, 12)
+	if len(h) != 12 || h[len(h)-1].Method != kinetics.ProjReached {
+		t.Fatalf("history %+v", h)
+	}
+	for i, p := range h {
+		if i > 0 && p.AtH < h[i-1].AtH {
+			t.Fatalf("history out of order at %d", i)
+		}
+		if p.Method == kinetics.ProjExponential && p.AtH > want/3 && rel(p.TargetH-p.AtH, want-p.AtH) > 0.15 {
+			t.Errorf("at %.2f h: projected %.2f h, true %.2f h", p.AtH, p.TargetH, want)
+		}
+	}
+}

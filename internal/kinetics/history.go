@@ -46,6 +46,11 @@ func (r *Result) ProjectionHistory(s Series, setup Setup, n int) []HistoryPoint 
 		for k+1 < len(t) && t[k+1] <= now {
 			k++
 		}
+		if !math.IsNaN(r.TargetReachedH) && t[k] >= r.TargetReachedH {
+			tr := r.TargetReachedH
+			out = append(out, HistoryPoint{AtH: t[k], TargetH: tr, LowH: tr, HighH: tr, Method: ProjReached})
+			continue
+		}
 		rate := math.NaN()
 		if k >= 1 {
 			lo := max(0, k-20)
