@@ -247,3 +247,24 @@ func TestReportOutFolder(t *testing.T) {
 		t.Errorf("--format csv: exit %d, %d lines, header %q", code, len(lines), lines[0])
 	}
 }
+
+// Another invented run: no constant-rate period, a solid tray (one face),
+// thinner slices, faster diffusion. The report must not invent a
+// constant-rate period and must recover the diffusivity.
+func TestReportOnOtherSimulatedRun(t *testing.T) {
+	dir := t.TempDir()
+	if _, stderr, code := parch(t, dir, "simulate", "--out", "run.csv", "--critical", "99", "--diffusivity", "8e-10",
+		"--thickness", "4", "--faces", "1", "--hours", "12", "--seed", "7"); code != 0 {
+		t.Fatal(stderr)
+	}
+	m := reportJSON(t, dir, "run.csv", "--initial-moisture", "86.5", "--thickness", "4", "--faces", "1", "--equilibrium", "0.05", "--target", "15")
+	if m["constant_rate"] != nil {
+		t.Errorf("constant-rate period invented: %v", m["constant_rate"])
+	}
+	if d := num(t, m, "diffusivity_m2_per_s"); math.Abs(d-8e-10)/8e-10 > 0.03 {
+		t.Errorf("diffusivity %v, simulated 8e-10", d)
+	}
+	if d := num(t, m, "dry_mass_g"); math.Abs(d-27) > 0.05 {
+		t.Errorf("dry mass %v", d)
+	}
+}

@@ -20,6 +20,19 @@ func runSimulate(args []string, stdout, stderr io.Writer) error {
 	out := fset.String("out", "", "CSV `FILE` to write (default: standard output); never overwritten")
 	seed := fset.Uint64("seed", 1, "random seed (the same seed gives the same run)")
 	speed := fset.Float64("speed", 0, "write rows as the run goes, this many simulated seconds per real second (0: all at once)")
+	sc := simulate.AppleRings()
+	// The invented scenario's constants, each changeable to make other runs.
+	fset.Float64Var(&sc.DurationH, "hours", sc.DurationH, "length of the run, h")
+	fset.Float64Var(&sc.IntervalS, "interval", sc.IntervalS, "seconds between readings")
+	fset.Float64Var(&sc.InitialMassG, "initial-mass", sc.InitialMassG, "product on the balance at the start, g")
+	moisture := fset.Float64("initial-moisture", 100*sc.InitialMoistureWB, "initial moisture, % wet basis")
+	fset.Float64Var(&sc.CriticalDB, "critical", sc.CriticalDB, "dry-basis moisture where the constant-rate period ends (at or above the initial moisture: none)")
+	fset.Float64Var(&sc.EquilibriumDB, "equilibrium", sc.EquilibriumDB, "equilibrium moisture, dry basis")
+	fset.Float64Var(&sc.ThicknessMM, "thickness", sc.ThicknessMM, "slice thickness, mm")
+	fset.IntVar(&sc.Faces, "faces", sc.Faces, "drying faces: 1 solid tray, 2 mesh")
+	fset.Float64Var(&sc.DiffusivityM2s, "diffusivity", sc.DiffusivityM2s, "effective diffusivity, m²/s")
+	fset.Float64Var(&sc.NoiseG, "noise", sc.NoiseG, "balance noise (standard deviation), g")
+	noDoors := fset.Bool("no-doors", false, "no door openings")
 	pos, err := parseFlags(fset, args)
 	if err != nil {
 		return err
@@ -30,10 +43,19 @@ func runSimulate(args []string, stdout, stderr io.Writer) error {
 	if *speed < 0 {
 		return usagef("--speed %v: expected 0 or a positive number", *speed)
 	}
-	sc := simulate.AppleRings()
+	sc.InitialMoistureWB = *moisture / 100
+	if *noDoors {
+		sc.Doors = nil
+	}
+	if sc.Faces != 1 && sc.Faces != 2 {
+		return usagef("--faces %d: expected 1 or 2", sc.Faces)
+	}
+	if sc.NoiseG < 0 {
+		return usagef("--noise %v: expected 0 or more", sc.NoiseG)
+	}
 	m, err := simulate.NewModel(sc)
 	if err != nil {
-		return err
+		return usagef("%v", err)
 	}
 	w := stdout
 	if *out != "" {
@@ -81,8 +103,8 @@ func runSimulate(args []string, stdout, stderr io.Writer) error {
 		return fmt.Errorf("write %s: %w", *out, werr)
 	}
 	if *out != "" {
-		fmt.Fprintf(stderr, "wrote %s: %s; dry mass %.2f g, constant-rate period ends at %.2f h (invented)\n",
-			*out, sc.Name, m.DryMassG(), m.ConstantRateEndH())
+		fmt.Fprintf(stderr, "wrote %s: %s; dry mass %.2f g, constant-rate period ends at %.2f h, D %g m²/s (invented)\n",
+			*out, sc.Name, m.DryMassG(), m.ConstantRateEndH(), sc.DiffusivityM2s)
 	}
 	return nil
 }

@@ -215,9 +215,19 @@ func RejectSpikes(t, m []float64, keep []bool, blockH float64, breaks []float64,
 			scale[b] = 1.4826 * median(near)
 		}
 		found := 0
+		first := true
 		for i := range t {
 			if !keep[i] {
 				continue
+			}
+			// The first reading above the trend is kept: drying is fastest
+			// at the start, where a trend through blocks bends least well,
+			// and the initial mass is the one figure everything rests on.
+			if first {
+				first = false
+				if m[i] > tr.at(t[i]) {
+					continue
+				}
 			}
 			b := int((t[i] - t0) / blockH)
 			if res[i] > math.Max(6*scale[b], floorG) {

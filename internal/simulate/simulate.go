@@ -141,7 +141,7 @@ func (m *Model) ConstantRateGPerH() float64 { return m.rateC * m.drySolid }
 
 // MoistureDB is the true dry-basis moisture at elapsed hours h.
 func (m *Model) MoistureDB(h float64) float64 {
-	if h <= m.endC {
+	if m.endC > 0 && h <= m.endC {
 		return m.x0 - m.rateC*h
 	}
 	fo := m.tau0 + (h-m.endC)*m.foPerH

@@ -68,3 +68,23 @@ func TestRunIsDeterministicAndQuantised(t *testing.T) {
 		t.Error("the first door opening (3.2 h) should give unsettled readings")
 	}
 }
+
+// With the critical moisture at the initial one there is no constant-rate
+// period: the curve is Crank's from the first reading.
+func TestNoConstantRateScenario(t *testing.T) {
+	sc := AppleRings()
+	sc.CriticalDB = 99
+	m, err := NewModel(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if m.ConstantRateEndH() != 0 || math.Abs(m.MassG(0)-200) > 1e-9 {
+		t.Fatalf("end %v, mass at 0 %v", m.ConstantRateEndH(), m.MassG(0))
+	}
+	half := sc.ThicknessMM / 2000
+	fo := sc.DiffusivityM2s * 3600 / (half * half)
+	x0 := 0.865 / 0.135
+	if got, want := m.MoistureDB(2), sc.EquilibriumDB+(x0-sc.EquilibriumDB)*kinetics.PlaneSheetMR(2*fo); math.Abs(got-want) > 1e-9 {
+		t.Errorf("X at 2 h = %v, want %v", got, want)
+	}
+}
