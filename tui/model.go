@@ -112,7 +112,8 @@ type Model struct {
 
 	mode     mode
 	input    textinput.Model
-	pending  *session.Event // the note being written or waiting for retry
+	pending  *session.Event // the note being typed or written
+	retry    string         // text of a note whose write failed, offered again by n
 	menuPos  int
 	form     setupForm
 	flash    string
@@ -421,6 +422,10 @@ func (m Model) startNote(kind, prompt string, number bool) (tea.Model, tea.Cmd) 
 	m.errMsg = ""
 	m.pending = &session.Event{Type: session.TypeNote, Kind: kind}
 	m.input.Reset()
+	if kind == kindNote && m.retry != "" {
+		m.input.SetValue(m.retry) // the note that could not be saved, for another try
+		m.retry = ""
+	}
 	m.input.Prompt = prompt
 	m.input.Placeholder = ""
 	m.mode = modeNote
@@ -517,7 +522,8 @@ func (m Model) noteSaved(msg noteSavedMsg) (tea.Model, tea.Cmd) {
 		// Keep the text: the user can retry with n (free notes) or the key.
 		m.errMsg = "not saved: " + msg.err.Error()
 		if msg.ev.Type == session.TypeNote && msg.ev.Text != "" {
-			m.input.SetValue(msg.ev.Text)
+			m.retry = msg.ev.Text
+			m.errMsg += " (n: try again, the text is kept)"
 		}
 		return m, nil
 	}
