@@ -288,12 +288,7 @@ func (m *Model) moistureChart(w, h int) []string {
 	// projection last.
 	series := [][]float64{solids, target, data, proj}
 	lo, hi := seriesRange(series)
-	yfmt, labW2 := yFormat(lo, hi)
-	cols2 := w - labW2 - 3
-	if cols2 != cols {
-		// label width changed with the values: keep the layout, pad instead
-		_ = cols2
-	}
+	yfmt, labW2 := yFormat(lo, hi) // wider labels (≥ 1000) push the chart one cell: plot cuts it
 	chars := []asciigraph.CharSet{{Horizontal: "═"}, {Horizontal: "╌"}, {}, {Horizontal: "·", VerticalLine: ":", ArcDownRight: "·", ArcDownLeft: "·", ArcUpRight: "·", ArcUpLeft: "·"}}
 	var colors []asciigraph.AnsiColor // none on NO_COLOR or monochrome terminals
 	if lipgloss.ColorProfile() != termenv.Ascii {

@@ -16,7 +16,8 @@ import (
 // only the flags given override what the session log says.
 type setupFlags struct {
 	fs       *flag.FlagSet
-	vals     map[string]*float64
+	vals     map[string]*float64 // flag name -> value
+	keys     map[string]string   // flag name -> the session log's setup key
 	faces    int
 	removed  removals
 	until    string
@@ -56,12 +57,11 @@ func parseElapsed(s string) (float64, error) {
 
 func (sf *setupFlags) register(fs *flag.FlagSet) {
 	sf.fs = fs
-	sf.vals = map[string]*float64{}
+	sf.vals, sf.keys = map[string]*float64{}, map[string]string{}
 	num := func(name, key, usage string) {
 		v := new(float64)
 		fs.Float64Var(v, name, 0, usage)
-		sf.vals[name] = v
-		_ = key
+		sf.vals[name], sf.keys[name] = v, key
 	}
 	num("initial-moisture", report.KeyInitialMoistureWB, "initial moisture, `PCT` wet basis (from an oven test)")
 	num("dry-mass", report.KeyDryMass, "dry solids left at the end, `G` (oven test of the sample); overrides --initial-moisture")
@@ -84,18 +84,12 @@ func (sf *setupFlags) registerAnalysis(fs *flag.FlagSet) {
 	fs.StringVar(&sf.until, "until", "", "analyse only the data up to `ELAPSED` (like 6h): what was known then")
 }
 
-var flagKeys = map[string]string{
-	"initial-moisture": report.KeyInitialMoistureWB, "dry-mass": report.KeyDryMass, "tare": report.KeyTare,
-	"initial-mass": report.KeyInitialMass, "target": report.KeyTargetWB, "equilibrium": report.KeyEquilibriumDB,
-	"area": report.KeyArea, "thickness": report.KeyThickness, "steady-pct": report.KeySteadyPct, "steady-window": report.KeySteadyWindowH,
-}
-
 // params returns the setup keys given as flags.
 func (sf *setupFlags) params() (map[string]float64, error) {
 	out := map[string]float64{}
 	var err error
 	sf.fs.Visit(func(f *flag.Flag) {
-		if key, ok := flagKeys[f.Name]; ok {
+		if key, ok := sf.keys[f.Name]; ok {
 			v := *sf.vals[f.Name]
 			if math.IsNaN(v) || math.IsInf(v, 0) {
 				err = usagef("--%s %v: expected a number", f.Name, v)

@@ -85,13 +85,6 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 	if err != nil {
 		return err
 	}
-	params := map[string]float64{}
-	for k, v := range sf.defaults {
-		params[k] = v
-	}
-	for k, v := range flagParams {
-		params[k] = v
-	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
 
@@ -149,15 +142,21 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 		if earlier != nil {
 			logParams = earlier.SetupParams()
 		}
-		report.ApplyParams(&setup, params)
-		report.ApplyParams(&setup, logParams) // what the log says beats the demo's defaults
+		// Defaults (the demo's), then what the log says, then the flags.
+		report.ApplyParams(&setup, sf.defaults)
+		report.ApplyParams(&setup, logParams)
 		report.ApplyParams(&setup, flagParams)
+		// Record what the log does not already say: defaults for keys it
+		// lacks, and flags that change it.
 		record := map[string]float64{}
-		for k, v := range params {
+		for k, v := range sf.defaults {
+			if _, ok := logParams[k]; !ok {
+				record[k] = v
+			}
+		}
+		for k, v := range flagParams {
 			if old, ok := logParams[k]; !ok || old != v {
-				if _, fromFlag := flagParams[k]; fromFlag || !ok {
-					record[k] = v
-				}
+				record[k] = v
 			}
 		}
 		if len(record) > 0 {
