@@ -91,7 +91,7 @@ func TestDashboardInTmux(t *testing.T) {
 		}
 		kinds[n.Kind] = v
 	}
-	if _, ok := kinds["bend_test_passed"]; !ok || kinds["piece_removed"] != 2.5 || l.Readings.Len() < 10 {
+	if _, ok := kinds["bend_test_passed"]; !ok || kinds["piece_removed"] != 2.5 || l.Readings.Len() == 0 {
 		t.Fatalf("log: %d readings, notes %v", l.Readings.Len(), kinds)
 	}
 	// parch report on the same log agrees: the removal is applied.
