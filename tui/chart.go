@@ -280,7 +280,7 @@ func (m *Model) moistureChart(w, h int) []string {
 	if m.res != nil && m.moistView == 0 && !math.IsNaN(m.res.DryMassG) {
 		solids = flat(m.res.DryMassG)
 	}
-	if m.res != nil && p.TargetH > now && (p.Method == kinetics.ProjExponential || p.Method == kinetics.ProjEquilibrium || p.Method == kinetics.ProjLinear) {
+	if m.res != nil && p.TargetH > now && len(p.Path) >= 2 {
 		proj = m.projected(cols, now, t1, p)
 	}
 	// asciigraph draws in order and a later series covers an earlier one
@@ -307,28 +307,28 @@ func (m *Model) moistureChart(w, h int) []string {
 	return lines
 }
 
-// projected is the projected course from now to the target, in view units.
+// projected is the combined projected course from now to the target, in
+// view units.
 func (m *Model) projected(cols int, now, t1 float64, p kinetics.Projection) []float64 {
 	out := make([]float64, cols)
-	mNow := m.lastGoodNet()
 	s := m.res.DryMassG
-	k := math.NaN()
-	if !math.IsNaN(p.AsymptoteG) && mNow > p.AsymptoteG && m.res.TargetMassG > p.AsymptoteG {
-		k = math.Log((mNow-p.AsymptoteG)/(m.res.TargetMassG-p.AsymptoteG)) / (p.TargetH - now)
-	}
+	path := p.Path
 	for c := range out {
 		out[c] = math.NaN()
 		t := t1 * float64(c) / float64(cols-1)
-		if t < now || t > p.TargetH*1.0001 {
+		if t < path[0].TimeH || t > path[len(path)-1].TimeH*1.0001 {
 			continue
 		}
-		var mass float64
-		if math.IsNaN(k) {
-			mass = mNow + (m.res.TargetMassG-mNow)*(t-now)/(p.TargetH-now)
-		} else {
-			mass = p.AsymptoteG + (mNow-p.AsymptoteG)*math.Exp(-k*(t-now))
+		j := 1
+		for j < len(path)-1 && path[j].TimeH < t {
+			j++
 		}
-		out[c] = m.inView(mass, s)
+		a, b := path[j-1], path[j]
+		x := b.MoistureDB
+		if b.TimeH > a.TimeH {
+			x = a.MoistureDB + (b.MoistureDB-a.MoistureDB)*(t-a.TimeH)/(b.TimeH-a.TimeH)
+		}
+		out[c] = m.inView(s*(1+x), s)
 	}
 	return out
 }

@@ -104,8 +104,7 @@ func analyse(path string, opt ingest.TableOptions, sf *setupFlags, until float64
 		progress(fmt.Sprintf("analysed %d readings in %s", res.Readings, d.Round(time.Millisecond)))
 	}
 	sum := report.Build(run, res, setup, until)
-	return &export.Bundle{Run: run, Res: res, Setup: setup, Summary: sum, Version: version,
-		History: res.ProjectionHistory(run.Series, setup, 12)}, nil
+	return &export.Bundle{Run: run, Res: res, Setup: setup, Summary: sum, Version: version}, nil
 }
 
 // isTerminal reports whether w is a terminal (text summaries go there; with

@@ -92,8 +92,15 @@ func TestReportOnSimulatedRun(t *testing.T) {
 	// What was known at hour 3: the projection looks ahead from there.
 	m3 := reportJSON(t, dir, "run.csv", "--initial-moisture", "86.5", "--target", "18", "--equilibrium", "0.05", "--until", "3h")
 	p, _ := m3["projection"].(map[string]any)
-	if p == nil || p["method"] != "exponential_to_asymptote" || math.Abs(num(t, p, "target_h")-7.27) > 0.5 {
+	if p == nil || p["method"] != "combined" || math.Abs(num(t, p, "target_h")-7.27) > 0.5 {
 		t.Errorf("projection at 3 h: %v (the run reaches 18 %% at 7.27 h)", m3["projection"])
+	} else {
+		if lo, hi := num(t, p, "low_h"), num(t, p, "high_h"); lo > 7.27 || hi < 7.27 || num(t, p, "level") != 0.8 {
+			t.Errorf("80 %% range %v to %v misses 7.27 h (level %v)", lo, hi, p["level"])
+		}
+		if ms, _ := p["methods"].([]any); len(ms) < 3 {
+			t.Errorf("projection lists %d methods, want the back-tested set", len(ms))
+		}
 	}
 	if num(t, m3, "duration_h") > 3.0001 || m3["target_reached_h"] != nil {
 		t.Errorf("--until 3h analysed %v h, target reached %v", m3["duration_h"], m3["target_reached_h"])

@@ -26,7 +26,6 @@ type Bundle struct {
 	Setup   kinetics.Setup
 	Summary report.Summary
 	Version string // parch's version
-	History []kinetics.HistoryPoint
 }
 
 // Files written into the folder.

@@ -72,7 +72,7 @@ func bundle(t *testing.T, path string, edit func(*kinetics.Setup)) *export.Bundl
 	}
 	sum := report.Build(run, res, setup, math.NaN())
 	sum.Input = filepath.Base(sum.Input)
-	return &export.Bundle{Run: run, Res: res, Setup: setup, Summary: sum, Version: "test", History: res.ProjectionHistory(run.Series, setup, 6)}
+	return &export.Bundle{Run: run, Res: res, Setup: setup, Summary: sum, Version: "test"}
 }
 
 func golden(t *testing.T, name string, got []byte) {
@@ -105,7 +105,7 @@ func TestWriteFolder(t *testing.T) {
 	golden(t, "notes.csv.golden", notes)
 	md, _ := os.ReadFile(filepath.Join(dir, export.FileReport))
 	golden(t, "report.md.golden", md)
-	for _, want := range []string{"## Cautions", "water activity", "## Thin-layer models", "Crank", "How the projected time"} {
+	for _, want := range []string{"## Cautions", "water activity", "## Thin-layer models", "Crank", "What the projection said", "range held"} {
 		if !bytes.Contains(md, []byte(want)) {
 			t.Errorf("report.md lacks %q", want)
 		}

@@ -150,25 +150,7 @@ func Markdown(w io.Writer, b *Bundle) error {
 	}
 
 	p("\n## Projected time to the target\n\n")
-	if pr := sum.Projection; pr != nil {
-		if pr.Method == kinetics.ProjReached {
-			p("The target was reached at %s h.\n", v(float64(pr.TargetH), "%.2f"))
-		} else {
-			p("At the last reading: %s h (range %s to %s h), by %s.", v(float64(pr.TargetH), "%.2f"), v(float64(pr.LowH), "%.2f"), v(float64(pr.HighH), "%.2f"), strings.ReplaceAll(pr.Method, "_", " "))
-			if pr.Why != "" {
-				p(" %s.", pr.Why)
-			}
-			p("\n")
-		}
-	} else {
-		p("No projection (a target and the dry solids are needed).\n")
-	}
-	if len(b.History) > 0 {
-		p("\nHow the projected time to the target moved during the run (each row uses only the readings up to its time):\n\n| at (h) | projected (h) | range (h) | method |\n| --- | --- | --- | --- |\n")
-		for _, hp := range b.History {
-			p("| %.2f | %s | %s to %s | %s |\n", hp.AtH, v(hp.TargetH, "%.2f"), v(hp.LowH, "%.2f"), v(hp.HighH, "%.2f"), strings.ReplaceAll(hp.Method, "_", " "))
-		}
-	}
+	writeProjection(p, sum)
 
 	p("\n## Notes\n\n")
 	if len(b.Run.Notes) == 0 {
@@ -235,4 +217,66 @@ func faces(f int) string {
 
 func mdEscape(s string) string {
 	return strings.NewReplacer("|", "\\|", "\n", " ").Replace(s)
+}
+
+// writeProjection writes the projection, the methods behind it and how the
+// projection moved during the run.
+func writeProjection(p func(string, ...any), sum report.Summary) {
+	v := func(x report.Num, format string) string {
+		f := float64(x)
+		if math.IsNaN(f) || math.IsInf(f, 0) {
+			return "—"
+		}
+		return fmt.Sprintf(format, f)
+	}
+	pr := sum.Projection
+	switch {
+	case pr == nil:
+		p("No projection (a target and the dry solids are needed).\n")
+	case pr.Method == kinetics.ProjReached:
+		p("The target was reached at %s h.\n", v(pr.TargetH, "%.2f"))
+	case math.IsNaN(float64(pr.TargetH)):
+		p("No projection at the last reading: %s.\n", pr.Why)
+	default:
+		p("At the last reading: %s h, %.0f %% range %s to %s h.", v(pr.TargetH, "%.2f"), 100*float64(pr.Level), v(pr.LowH, "%.2f"), v(pr.HighH, "%.2f"))
+		if pr.Why != "" {
+			p(" %s.", pr.Why)
+		}
+		p("\n")
+	}
+	if pr != nil && len(pr.Methods) > 0 {
+		p("\nThe projection weighs several methods by how well each did on this run so far: the run is replayed at earlier cut points and each method's projection is checked against the moisture the run then reached (%d checks). The range is taken from the errors the combination itself made in those checks, widened while there are few; its low end is set so that the target comes earlier than it only rarely.\n\n", pr.Checks)
+		p("| method | projected (h) | weight | median error of the time left | checks |\n| --- | --- | --- | --- | --- |\n")
+		for _, m := range pr.Methods {
+			at := v(m.TargetH, "%.2f")
+			if m.Never {
+				at = "not reached"
+			} else if m.Why != "" {
+				at = "— (" + m.Why + ")"
+			}
+			p("| %s | %s | %s | %s | %d |\n", m.Title, at, v(m.Weight, "%.2f"), v(m.BacktestError*100, "%.0f %%"), m.Checks)
+		}
+		if r := pr.Reference; r != nil {
+			p("\nReference run: %s (weight %s, median back-test error %s).", mdEscape(r.File), v(r.Weight, "%.2f"), v(r.BacktestError*100, "%.0f %%"))
+			if r.Note != "" {
+				p(" %s.", mdEscape(r.Note))
+			}
+			p("\n")
+		}
+	}
+	if len(sum.History) > 0 {
+		p("\nWhat the projection said during the run (each row uses only the readings up to its time), and when the target was really reached:\n\n| at (h) | projected (h) | range (h) | reached (h) | error | range held |\n| --- | --- | --- | --- | --- | --- |\n")
+		for _, hp := range sum.History {
+			held := "—"
+			if hp.Held != nil {
+				held = map[bool]string{true: "yes", false: "no"}[*hp.Held]
+			}
+			if hp.Method == kinetics.ProjReached {
+				p("| %s | reached | | %s | | |\n", v(hp.AtH, "%.2f"), v(hp.ActualH, "%.2f"))
+				continue
+			}
+			p("| %s | %s | %s to %s | %s | %s | %s |\n", v(hp.AtH, "%.2f"), v(hp.TargetH, "%.2f"), v(hp.LowH, "%.2f"), v(hp.HighH, "%.2f"),
+				v(hp.ActualH, "%.2f"), v(hp.ErrorPc, "%+.0f %% of the time left"), held)
+		}
+	}
 }

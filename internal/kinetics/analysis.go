@@ -30,6 +30,7 @@ type Series struct {
 type Options struct {
 	UntilH       float64 // analyse only readings up to this time; NaN or 0: all
 	MaxFitPoints int     // model fits use at most this many time-binned points (default 2000)
+	Reference    *Reference // an earlier run of the same product, for the projection
 }
 
 // Points are the derived values at every reading (NaN where not known).
@@ -76,6 +77,8 @@ type Result struct {
 	Points              Points
 	Warnings            []string
 	MassKnown           bool // false for moisture or MR input: gram figures are NaN
+
+	track *track // the projection's history, for ProjectionHistory
 }
 
 func (r *Result) warn(format string, a ...any) {
@@ -116,7 +119,7 @@ func Analyze(s Series, setup Setup, opt Options) (*Result, error) {
 	r.InitialMassG, r.DryMassG, r.InitialDryMassG, r.FinalMassG = nan, nan, nan, nan
 	r.FinalMoistureWBPct, r.FinalMoistureDB, r.InitialMoistureDB = nan, nan, nan
 	r.TargetMoistureWBPct, r.TargetMassG, r.TargetReachedH, r.EndOfRunH = nan, nan, nan, nan
-	r.Projection = Projection{TargetH: nan, LowH: nan, HighH: nan, AsymptoteG: nan, Method: ProjNone}
+	r.Projection = NoProjection("no target moisture or no dry solids")
 	r.DurationH = t[n-1] - t[0]
 
 	// Values as masses: moisture input becomes the mass of 1 g of solids.
@@ -369,27 +372,16 @@ func Analyze(s Series, setup Setup, opt Options) (*Result, error) {
 	}
 
 	// Projection to the target.
-	nowH := t[last]
+	if solids != nil && !math.IsNaN(setup.TargetX()) {
+		r.track = newTrack(t, pts.X, keep, xe, r.InitialMoistureDB, setup.TargetX(), opt.Reference)
+	}
 	switch {
 	case !math.IsNaN(r.TargetReachedH):
-		r.Projection = Projection{TargetH: r.TargetReachedH, LowH: r.TargetReachedH, HighH: r.TargetReachedH,
-			Method: ProjReached, AsymptoteG: nan}
-	case solids != nil && !math.IsNaN(r.TargetMassG):
-		from := t[first]
-		if r.ConstantRate != nil {
-			from = r.ConstantRate.EndH
-		}
-		sEnd := solids.at(nowH)
-		var pt, pm []float64
-		for i := range keep {
-			if keep[i] {
-				pt = append(pt, t[i])
-				pm = append(pm, pts.NetG[i]*sEnd/solids.at(t[i])) // as if on today's solids
-			}
-		}
-		constantNow := r.ConstantRate != nil && r.ConstantRate.Ongoing
-		floorG := sEnd * (1 + xe)
-		r.Projection = Project(pt, pm, from, nowH, r.TargetMassG, floorG, sEnd, pts.RateG[last], constantNow)
+		tr := r.TargetReachedH
+		r.Projection = NoProjection("")
+		r.Projection.TargetH, r.Projection.LowH, r.Projection.HighH, r.Projection.Method = tr, tr, tr, ProjReached
+	case r.track != nil:
+		r.Projection = r.track.project()
 		if r.Projection.Why != "" {
 			r.warn("projection: %s", r.Projection.Why)
 		}

@@ -110,7 +110,7 @@ func TestProjectionFromPartialRun(t *testing.T) {
 			t.Fatal(err)
 		}
 		p := r.Projection
-		if p.Method != kinetics.ProjExponential || rel(p.TargetH-until, want-until) > 0.10 {
+		if p.Method != kinetics.MethodCombined || rel(p.TargetH-until, want-until) > 0.10 {
 			t.Errorf("at %.2f h: projected %.3f h by %s, true %.3f h", until, p.TargetH, p.Method, want)
 		}
 		t.Logf("at %.2f h: projected %.3f h (%.3f–%.3f), true %.3f h", until, p.TargetH, p.LowH, p.HighH, want)
@@ -133,15 +133,18 @@ func TestProjectionHistory(t *testing.T) {
 		t.Fatal(err)
 	}
 	want := trueReached(m, kinetics.WetToDry(0.18))
-	h := r.ProjectionHistory(s, setup, 12)
-	if len(h) != 12 || h[len(h)-1].Method != kinetics.ProjReached {
+	h := r.ProjectionHistory()
+	if len(h) < 12 || h[len(h)-1].Method != kinetics.ProjReached {
 		t.Fatalf("history %+v", h)
 	}
 	for i, p := range h {
 		if i > 0 && p.AtH < h[i-1].AtH {
 			t.Fatalf("history out of order at %d", i)
 		}
-		if p.Method == kinetics.ProjExponential && p.AtH > want/3 && rel(p.TargetH-p.AtH, want-p.AtH) > 0.15 {
+		t.Logf("at %.2f h: %.2f h (%.2f–%.2f) %s", p.AtH, p.TargetH, p.LowH, p.HighH, p.Method)
+		// Within the last half hour the time left is too short for a
+		// relative error to mean much.
+		if p.Method == kinetics.MethodCombined && p.AtH > want/3 && want-p.AtH > 0.5 && rel(p.TargetH-p.AtH, want-p.AtH) > 0.15 {
 			t.Errorf("at %.2f h: projected %.2f h, true %.2f h", p.AtH, p.TargetH, want)
 		}
 	}

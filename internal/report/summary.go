@@ -52,6 +52,7 @@ type Summary struct {
 	SuspectedRemovals   []MassAt       `json:"suspected_removals"`
 	Notes               []NoteOut      `json:"notes"`
 	Warnings            []string       `json:"warnings"`
+	History             []HistoryOut   `json:"projection_history"`
 
 	// Extra context, beyond the contract.
 	Input         string  `json:"input"`
@@ -64,13 +65,54 @@ type Summary struct {
 
 // ProjectionOut is the projected time to the target.
 type ProjectionOut struct {
-	TargetH    Num    `json:"target_h"`
-	LowH       Num    `json:"low_h"`
-	HighH      Num    `json:"high_h"`
-	Method     string `json:"method"`
-	Why        string `json:"why,omitempty"`
-	AsymptoteG Num    `json:"asymptote_g"`
-	FromH      Num    `json:"window_from_h"`
+	TargetH    Num           `json:"target_h"`
+	LowH       Num           `json:"low_h"`
+	HighH      Num           `json:"high_h"`
+	Level      Num           `json:"level"` // the share of outcomes the range is meant to hold
+	Method     string        `json:"method"`
+	Why        string        `json:"why,omitempty"`
+	AsymptoteG Num           `json:"asymptote_g"`
+	FromH      Num           `json:"window_from_h"`
+	Checks     int           `json:"backtest_checks"`
+	Methods    []MethodOut   `json:"methods"`
+	Reference  *ReferenceOut `json:"reference,omitempty"`
+}
+
+// MethodOut is one projection method: what it says and how far the
+// back-test trusts it.
+type MethodOut struct {
+	Name          string `json:"name"`
+	Title         string `json:"title"`
+	TargetH       Num    `json:"target_h"` // null when it made no projection or says never
+	Never         bool   `json:"never,omitempty"`
+	Weight        Num    `json:"weight"`
+	BacktestError Num    `json:"backtest_error"` // median |relative error| of the time left
+	Checks        int    `json:"backtest_checks"`
+	Why           string `json:"why,omitempty"`
+}
+
+// ReferenceOut is the reference run's part in the projection.
+type ReferenceOut struct {
+	File          string `json:"file"`
+	TargetH       Num    `json:"target_h"`
+	Weight        Num    `json:"weight"`
+	BacktestError Num    `json:"backtest_error"`
+	LowestMR      Num    `json:"lowest_mr"`
+	Note          string `json:"note,omitempty"`
+}
+
+// HistoryOut is what the projection said at one moment, and how it turned
+// out once the target was reached.
+type HistoryOut struct {
+	AtH     Num    `json:"at_h"`
+	TargetH Num    `json:"target_h"`
+	LowH    Num    `json:"low_h"`
+	HighH   Num    `json:"high_h"`
+	Method  string `json:"method"`
+	ActualH Num    `json:"actual_h"`
+	ErrorH  Num    `json:"error_h"`   // projected − actual
+	ErrorPc Num    `json:"error_pct"` // of the time that was left
+	Held    *bool  `json:"held"`      // null until the target is reached
 }
 
 // ConstantOut is the constant-rate period.
@@ -151,14 +193,8 @@ func Build(run *Run, res *kinetics.Result, setup kinetics.Setup, untilH float64)
 		st := run.Start.Format(time.RFC3339Nano)
 		s.Start = &st
 	}
-	p := res.Projection
-	if p.Method != kinetics.ProjNone || !math.IsNaN(p.TargetH) {
-		s.Projection = &ProjectionOut{TargetH: Num(p.TargetH), LowH: Num(p.LowH), HighH: Num(p.HighH), Method: p.Method,
-			Why: p.Why, AsymptoteG: Num(p.AsymptoteG), FromH: Num(p.WindowFromH)}
-		if !res.MassKnown {
-			s.Projection.AsymptoteG = Num(math.NaN())
-		}
-	}
+	s.Projection = projectionOut(res.Projection, res.MassKnown)
+	s.History = historyOut(res.ProjectionHistory())
 	if cr := res.ConstantRate; cr != nil {
 		s.ConstantRate = &ConstantOut{RateGPerH: Num(cr.RateGPerH), StartsH: Num(cr.StartH), EndsH: Num(cr.EndH), CriticalDB: Num(cr.CriticalDB), Ongoing: cr.Ongoing}
 		if cr.Ongoing {
@@ -214,6 +250,68 @@ func Build(run *Run, res *kinetics.Result, setup kinetics.Setup, untilH float64)
 	return s
 }
 
+// projectionOut is the projection as reported; nil when none was tried.
+func projectionOut(p kinetics.Projection, massKnown bool) *ProjectionOut {
+	if p.Method == kinetics.ProjNone && math.IsNaN(p.TargetH) && len(p.Methods) == 0 && p.Why == "" {
+		return nil
+	}
+	out := &ProjectionOut{TargetH: Num(p.TargetH), LowH: Num(p.LowH), HighH: Num(p.HighH), Level: Num(p.Level), Method: p.Method,
+		Why: p.Why, AsymptoteG: Num(p.AsymptoteG), FromH: Num(p.WindowFromH), Checks: p.Checks, Methods: []MethodOut{}}
+	if !massKnown {
+		out.AsymptoteG = Num(math.NaN())
+	}
+	for _, m := range p.Methods {
+		mo := MethodOut{Name: m.Name, Title: kinetics.MethodTitle(m.Name), TargetH: Num(m.TargetH), Weight: Num(m.Weight),
+			BacktestError: Num(m.Error), Checks: m.Checks, Why: m.Disabled}
+		if math.IsInf(m.TargetH, 1) {
+			mo.Never = true
+			mo.Why = "it says the run levels off above the target"
+		}
+		out.Methods = append(out.Methods, mo)
+	}
+	if r := p.Reference; r != nil {
+		out.Reference = &ReferenceOut{File: r.Name, TargetH: Num(r.TargetH), Weight: Num(r.Weight), BacktestError: Num(r.Error),
+			LowestMR: Num(r.LowestMR), Note: r.Note}
+	}
+	return out
+}
+
+// methodMix names the methods that carry most of a combined projection.
+func methodMix(pr *ProjectionOut) string {
+	ms := append([]MethodOut(nil), pr.Methods...)
+	sort.SliceStable(ms, func(i, j int) bool { return ms[i].Weight > ms[j].Weight })
+	var parts []string
+	for _, m := range ms {
+		if len(parts) == 3 || !(m.Weight >= 0.1) {
+			break
+		}
+		parts = append(parts, fmt.Sprintf("%s %.0f %%", m.Title, 100*float64(m.Weight)))
+	}
+	if len(parts) == 0 {
+		return pr.Method
+	}
+	return "weighted by the back-test: " + strings.Join(parts, ", ")
+}
+
+// historyOut is the projection history with its errors.
+func historyOut(h []kinetics.HistoryPoint) []HistoryOut {
+	out := []HistoryOut{}
+	for _, hp := range h {
+		ho := HistoryOut{AtH: Num(hp.AtH), TargetH: Num(hp.TargetH), LowH: Num(hp.LowH), HighH: Num(hp.HighH), Method: hp.Method,
+			ActualH: Num(hp.ActualH), ErrorH: Num(math.NaN()), ErrorPc: Num(math.NaN())}
+		if !math.IsNaN(hp.ActualH) {
+			held := hp.Held
+			ho.Held = &held
+			ho.ErrorH = Num(hp.TargetH - hp.ActualH)
+			if left := hp.ActualH - hp.AtH; left > 0 {
+				ho.ErrorPc = Num(100 * (hp.TargetH - hp.ActualH) / left)
+			}
+		}
+		out = append(out, ho)
+	}
+	return out
+}
+
 // WriteJSON writes the summary as one indented JSON object.
 func WriteJSON(w io.Writer, s Summary) error {
 	enc := json.NewEncoder(w)
@@ -263,10 +361,14 @@ func WriteText(w io.Writer, s Summary) error {
 	p("\n\nMass          initial %s   dry solids %s   final %s\n", v(s.InitialMassG, "%.2f", " g"), v(s.DryMassG, "%.2f", " g"), v(s.FinalMassG, "%.2f", " g"))
 	p("Moisture      final %s wet basis, %s dry basis\n", v(s.FinalMoistureWBPct, "%.1f", " %"), v(s.FinalMoistureDB, "%.3f", ""))
 	p("Target        %s wet basis = %s; reached at %s\n", v(s.TargetMoistureWBPct, "%.1f", " %"), v(s.TargetMassG, "%.2f", " g"), v(s.TargetReachedH, "%.2f", " h"))
-	if pr := s.Projection; pr != nil && pr.Method != "reached" {
-		p("Projection    %s (range %s to %s), %s\n", v(pr.TargetH, "%.2f", " h"), v(pr.LowH, "%.2f", " h"), v(pr.HighH, "%.2f", " h"), pr.Method)
-		if pr.Why != "" {
-			p("              %s\n", pr.Why)
+	if pr := s.Projection; pr != nil && pr.Method != kinetics.ProjReached {
+		if math.IsNaN(float64(pr.TargetH)) {
+			p("Projection    none: %s\n", pr.Why)
+		} else {
+			p("Projection    %s (%.0f %% range %s to %s), %s\n", v(pr.TargetH, "%.2f", " h"), 100*float64(pr.Level), v(pr.LowH, "%.2f", " h"), v(pr.HighH, "%.2f", " h"), methodMix(pr))
+			if pr.Why != "" {
+				p("              %s\n", pr.Why)
+			}
 		}
 	}
 	if cr := s.ConstantRate; cr != nil {

@@ -1,0 +1,213 @@
+package kinetics
+
+import (
+	"errors"
+	"fmt"
+	"math"
+)
+
+// Reference is an earlier run of the same product, kept as its
+// characteristic drying curve: the moisture ratio against time, made
+// monotone. Runs of one product at other air conditions follow about the
+// same curve with time stretched (van Meel 1958; Keey, Drying of Loose and
+// Particulate Materials, 1992): the projection scales it to this run's
+// measured pace.
+type Reference struct {
+	Name  string
+	TimeH []float64 // hours from the reference's first reading
+	MR    []float64 // free moisture ratio (X − X_e)/(X0 − X_e), non-increasing
+	// tail: beyond its last reading the curve goes on as its own final
+	// exponential decay, MR_end·e^(−tailK·(t − t_end)); 0 when it had
+	// levelled off.
+	tailK float64
+}
+
+// ErrReferenceUnusable is returned for a reference run without the moisture
+// ratio (no dry solids) or with too little drying.
+var ErrReferenceUnusable = errors.New("reference run has no usable moisture ratio")
+
+// NewReference takes the characteristic curve of an analysed run.
+func NewReference(name string, s Series, r *Result) (*Reference, error) {
+	if r == nil || len(r.Points.MR) == 0 {
+		return nil, fmt.Errorf("%s: %w (give its initial moisture or dry mass)", name, ErrReferenceUnusable)
+	}
+	keep := make([]bool, len(r.Points.MR))
+	any := false
+	for i, v := range r.Points.MR {
+		keep[i] = r.Points.Reject[i] == KeepOK && !math.IsNaN(v)
+		any = any || keep[i]
+	}
+	if !any {
+		return nil, fmt.Errorf("%s: %w (give its initial moisture or dry mass)", name, ErrReferenceUnusable)
+	}
+	t, mr := binned(s.TimeH[:len(keep)], r.Points.MR, keep, maxBins)
+	return ReferenceFromCurve(name, t, mr)
+}
+
+// ReferenceFromCurve makes a reference from a moisture-ratio curve (times
+// in hours, oldest first). The curve is made non-increasing by a running
+// minimum: a drying run does not regain water, and a noisy rise would make
+// its inverse ambiguous.
+func ReferenceFromCurve(name string, t, mr []float64) (*Reference, error) {
+	if len(t) != len(mr) || len(t) < 4 {
+		return nil, fmt.Errorf("%s: %w (fewer than 4 readings)", name, ErrReferenceUnusable)
+	}
+	ref := &Reference{Name: name}
+	low := math.Inf(1)
+	for i := range t {
+		if !finite(t[i], mr[i]) {
+			continue
+		}
+		low = math.Min(low, mr[i])
+		ref.TimeH = append(ref.TimeH, t[i]-t[0])
+		ref.MR = append(ref.MR, low)
+	}
+	n := len(ref.MR)
+	if n < 4 || !(ref.MR[0]-ref.MR[n-1] > 0.1) {
+		return nil, fmt.Errorf("%s: %w (its moisture ratio falls by less than 0.1)", name, ErrReferenceUnusable)
+	}
+	// The tail: a straight line in ln MR over the last quarter of the run.
+	end := ref.TimeH[n-1]
+	var st, sy, stt, sty, c float64
+	for i := range ref.TimeH {
+		if ref.TimeH[i] >= 0.75*end && ref.MR[i] > 0 {
+			l := math.Log(ref.MR[i])
+			st += ref.TimeH[i]
+			sy += l
+			stt += ref.TimeH[i] * ref.TimeH[i]
+			sty += ref.TimeH[i] * l
+			c++
+		}
+	}
+	if den := c*stt - st*st; c >= 3 && den > 0 {
+		ref.tailK = math.Max(0, -(c*sty-st*sy)/den)
+	}
+	return ref, nil
+}
+
+// LowestMR is the lowest moisture ratio the reference reached.
+func (ref *Reference) LowestMR() float64 { return ref.MR[len(ref.MR)-1] }
+
+// mrAt is the reference's moisture ratio at its time tau, with the tail
+// beyond its end.
+func (ref *Reference) mrAt(tau float64) float64 {
+	n := len(ref.TimeH)
+	if tau <= ref.TimeH[0] {
+		return ref.MR[0]
+	}
+	if tau >= ref.TimeH[n-1] {
+		return ref.MR[n-1] * math.Exp(-ref.tailK*(tau-ref.TimeH[n-1]))
+	}
+	i := searchAbove(ref.TimeH, tau)
+	a, b := ref.TimeH[i-1], ref.TimeH[i]
+	return ref.MR[i-1] + (ref.MR[i]-ref.MR[i-1])*(tau-a)/(b-a)
+}
+
+// timeAt is when the reference first got down to mr (NaN above its start
+// or below its end).
+func (ref *Reference) timeAt(mr float64) float64 {
+	n := len(ref.MR)
+	if mr > ref.MR[0] || mr < ref.MR[n-1] {
+		return math.NaN()
+	}
+	for i := 1; i < n; i++ {
+		if ref.MR[i] <= mr {
+			d := ref.MR[i-1] - ref.MR[i]
+			if d <= 0 {
+				return ref.TimeH[i]
+			}
+			return ref.TimeH[i-1] + (ref.TimeH[i]-ref.TimeH[i-1])*(ref.MR[i-1]-mr)/d
+		}
+	}
+	return ref.TimeH[n-1]
+}
+
+// searchAbove is the first index whose value is above v (t sorted).
+func searchAbove(t []float64, v float64) int {
+	lo, hi := 0, len(t)
+	for lo < hi {
+		mid := (lo + hi) / 2
+		if t[mid] <= v {
+			lo = mid + 1
+		} else {
+			hi = mid
+		}
+	}
+	return lo
+}
+
+// forecaster projects a run by the reference's curve, its time stretched
+// by a factor s that matches this run's pace so far: for each earlier
+// reading, the time this run took from it to now against the time the
+// reference took between the same moisture ratios (least squares through
+// the origin, so a start-up lag in either run does not count).
+func (ref *Reference) forecaster() forecaster {
+	return forecaster{name: MethodReference, title: "reference run", fit: func(t, y []float64, y0 float64) course {
+		n := len(t)
+		if n < 4 || !(y0 > 0) {
+			return nil
+		}
+		now := t[n-1]
+		k := recentFrom(t, 1.0/6, 3)
+		yNow, _, err := LocalPoly(t[k:], y[k:], now, 1)
+		if err != nil {
+			yNow = y[n-1]
+		}
+		tauNow := ref.timeAt(yNow / y0)
+		if math.IsNaN(tauNow) {
+			if yNow/y0 > ref.MR[0] {
+				tauNow = 0
+			} else {
+				return nil // this run is already drier than the reference got
+			}
+		}
+		var sxy, sxx float64
+		for i := 0; i < n-1; i++ {
+			tau := ref.timeAt(y[i] / y0)
+			if math.IsNaN(tau) {
+				continue
+			}
+			dx, dy := tauNow-tau, now-t[i]
+			if dx <= 0 || dy <= 0 {
+				continue
+			}
+			sxy += dx * dy
+			sxx += dx * dx
+		}
+		if !(sxx > 0) || !(sxy > 0) {
+			return nil
+		}
+		s := sxy / sxx
+		return func(tH float64) float64 { return y0 * ref.mrAt(tauNow+(tH-now)/s) }
+	}}
+}
+
+// ReferenceUse says how the reference run took part in a projection.
+type ReferenceUse struct {
+	Name     string
+	TargetH  float64 // what it projected on its own
+	Weight   float64
+	Error    float64 // median |relative error| in the back-test
+	LowestMR float64 // how far down the reference's own data go
+	Note     string  // where it could not be used
+}
+
+// describeReference fills in the reference's part of a projection.
+func (tr *track) describeReference(p *Projection) {
+	if tr.ref == nil {
+		return
+	}
+	u := &ReferenceUse{Name: tr.ref.Name, TargetH: math.NaN(), Error: math.NaN(), LowestMR: tr.ref.LowestMR()}
+	for _, m := range p.Methods {
+		if m.Name == MethodReference {
+			u.TargetH, u.Weight, u.Error = m.TargetH, m.Weight, m.Error
+			if m.Disabled != "" {
+				u.Note = "not used: " + m.Disabled
+			}
+		}
+	}
+	if mrT := tr.level / tr.y0; mrT < u.LowestMR && u.Note == "" {
+		u.Note = fmt.Sprintf("the reference reaches only a moisture ratio of %.3f and the target is %.3f: below it, its final decay is carried on", u.LowestMR, mrT)
+	}
+	p.Reference = u
+}
