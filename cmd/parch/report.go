@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -97,8 +98,15 @@ func analyse(path string, opt ingest.TableOptions, sf *setupFlags, until float64
 	if errors.Is(err, kinetics.ErrNoReadings) {
 		return nil, fmt.Errorf("%s has no readings to analyse", path)
 	}
+	if errors.Is(err, kinetics.ErrNothingBeforeCut) {
+		return nil, usagef("--until %s: %s has no reading at or before %.4g h (its readings start at %.4g h)",
+			sf.until, path, until, minTime(run.Series.TimeH))
+	}
 	if err != nil {
 		return nil, err
+	}
+	if !math.IsNaN(until) && res.AfterCut == 0 {
+		res.Warnings = append(res.Warnings, fmt.Sprintf("--until %s: no reading is later than that, so nothing was cut", sf.until))
 	}
 	if d := time.Since(begin); d > 2*time.Second {
 		progress(fmt.Sprintf("analysed %d readings in %s", res.Readings, d.Round(time.Millisecond)))
@@ -129,4 +137,12 @@ func exportFolder(logPath string) string {
 		}
 		dir = fmt.Sprintf("%s-%d", base, i)
 	}
+}
+
+func minTime(t []float64) float64 {
+	lo := math.Inf(1)
+	for _, v := range t {
+		lo = math.Min(lo, v)
+	}
+	return lo
 }

@@ -2,6 +2,7 @@ package main
 
 import (
 	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -273,5 +274,52 @@ func TestReportOnOtherSimulatedRun(t *testing.T) {
 	}
 	if d := num(t, m, "dry_mass_g"); math.Abs(d-27) > 0.05 {
 		t.Errorf("dry mass %v", d)
+	}
+}
+
+// --until cuts whatever the order of the rows (issue 8): a row out of order
+// and a duplicated last row, both common in exports, do not turn the cut off.
+func TestReportUntilCutsAnyOrder(t *testing.T) {
+	dir := t.TempDir()
+	var b strings.Builder
+	b.WriteString("elapsed_s,mass_g\n")
+	for i := 0; i <= 360; i++ {
+		s := i * 60
+		switch i {
+		case 100:
+			s = 101 * 60
+		case 101:
+			s = 100 * 60
+		}
+		fmt.Fprintf(&b, "%d,%.3f\n", s, 27+100*math.Exp(-0.5*float64(s)/3600))
+	}
+	b.WriteString("21600,31.000\n") // the last row again
+	os.WriteFile(filepath.Join(dir, "rows.csv"), []byte(b.String()), 0o644)
+	m := reportJSON(t, dir, "rows.csv", "--until", "1h", "--dry-mass", "27", "--target", "18")
+	if d := num(t, m, "duration_h"); d > 1 || d < 0.98 {
+		t.Errorf("--until 1h analysed %v h", d)
+	}
+	if r := num(t, m, "readings"); r != 61 {
+		t.Errorf("--until 1h: %v readings, want the 61 at or before 1 h", r)
+	}
+	full := reportJSON(t, dir, "rows.csv")
+	by, _ := full["rejected_by"].(map[string]any)
+	if by["out_of_order"] != 1.0 || by["duplicate_time"] != 1.0 {
+		t.Errorf("rejected %v, want one out of order and one duplicate", full["rejected_by"])
+	}
+	late := reportJSON(t, dir, "rows.csv", "--until", "9h")
+	if !strings.Contains(fmt.Sprint(late["warnings"]), "nothing was cut") {
+		t.Errorf("--until past the end: warnings %v", late["warnings"])
+	}
+	for _, tc := range []struct {
+		until, want string
+	}{
+		{"0h", "after the start"},
+		{"-1h", "--until"},
+	} {
+		_, stderr, code := parch(t, dir, "report", "rows.csv", "--until", tc.until)
+		if code != 2 || !strings.Contains(stderr, tc.want) {
+			t.Errorf("--until %s: exit %d, %q", tc.until, code, stderr)
+		}
 	}
 }

@@ -123,6 +123,9 @@ func (sf *setupFlags) untilH() (float64, error) {
 	if err != nil {
 		return 0, usagef("--until: %v", err)
 	}
+	if !(h > 0) {
+		return 0, usagef("--until %s: expected a time after the start, like 6h", sf.until)
+	}
 	return h, nil
 }
 

@@ -28,8 +28,8 @@ type Series struct {
 
 // Options tune an analysis.
 type Options struct {
-	UntilH       float64 // analyse only readings up to this time; NaN or 0: all
-	MaxFitPoints int     // model fits use at most this many time-binned points (default 2000)
+	UntilH       float64    // analyse only readings up to this time; NaN or 0: all
+	MaxFitPoints int        // model fits use at most this many time-binned points (default 2000)
 	Reference    *Reference // an earlier run of the same product, for the projection
 }
 
@@ -77,6 +77,7 @@ type Result struct {
 	Points              Points
 	Warnings            []string
 	MassKnown           bool // false for moisture or MR input: gram figures are NaN
+	AfterCut            int  // readings after the UntilH cut, not analysed
 
 	track *track // the projection's history, for ProjectionHistory
 }
@@ -100,15 +101,91 @@ func Analyze(s Series, setup Setup, opt Options) (*Result, error) {
 	if len(s.Value) != n || (s.Stable != nil && len(s.Stable) != n) {
 		return nil, fmt.Errorf("kinetics: series columns differ in length")
 	}
-	if !math.IsNaN(opt.UntilH) && opt.UntilH > 0 {
-		k := sort.SearchFloat64s(s.TimeH, opt.UntilH+1e-12)
-		if k < n && isSorted(s.TimeH) {
-			n = k
-		}
-	}
 	if n == 0 {
 		return nil, ErrNoReadings
 	}
+	pick, why := inOrder(s.TimeH, opt.UntilH)
+	if len(pick) == 0 {
+		for _, w := range why {
+			if w == RejAfterCut {
+				return nil, ErrNothingBeforeCut
+			}
+		}
+		return nil, ErrNoReadings
+	}
+	if len(pick) == n {
+		return analyzeInOrder(s, setup, opt)
+	}
+	sub := Series{Kind: s.Kind, TimeH: gather(s.TimeH, pick), Value: gather(s.Value, pick)}
+	if s.Stable != nil {
+		sub.Stable = gather(s.Stable, pick)
+	}
+	r, err := analyzeInOrder(sub, setup, opt)
+	if err != nil {
+		return nil, err
+	}
+	r.spread(pick, why)
+	return r, nil
+}
+
+// ErrNothingBeforeCut is returned when no reading is at or before the
+// UntilH cut.
+var ErrNothingBeforeCut = errors.New("no reading at or before the cut")
+
+func gather[T any](v []T, idx []int) []T {
+	out := make([]T, len(idx))
+	for j, i := range idx {
+		out[j] = v[i]
+	}
+	return out
+}
+
+// spread maps the figures of the readings analysed (pick) back onto every
+// reading of the series, marking the others with why they were left out.
+func (r *Result) spread(pick []int, why []uint8) {
+	n := len(why)
+	widen := func(v []float64) []float64 {
+		out := make([]float64, n)
+		for i := range out {
+			out[i] = math.NaN()
+		}
+		for j, i := range pick {
+			if j < len(v) { // an analysis that stopped early has no figures
+				out[i] = v[j]
+			}
+		}
+		return out
+	}
+	p := &r.Points
+	p.NetG, p.SmoothG, p.RateG, p.RateDB = widen(p.NetG), widen(p.SmoothG), widen(p.RateG), widen(p.RateDB)
+	p.Flux, p.X, p.WBPct, p.MR = widen(p.Flux), widen(p.X), widen(p.WBPct), widen(p.MR)
+	rej := append([]uint8(nil), why...)
+	for j, i := range pick {
+		if j < len(p.Reject) {
+			rej[i] = p.Reject[j]
+		}
+	}
+	p.Reject = rej
+	r.Readings, r.AfterCut = 0, 0
+	order := 0
+	for _, w := range why {
+		switch w {
+		case RejAfterCut:
+			r.AfterCut++
+		case RejOrder, RejDuplicate:
+			order++
+		}
+	}
+	r.Readings = n - r.AfterCut
+	r.countRejects()
+	if order > 0 {
+		r.warn("%d readings out of time order or with a time already used were left out (the longest run of readings in time order is analysed)", order)
+	}
+}
+
+// analyzeInOrder is Analyze on readings whose times increase.
+func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
+	n := len(s.TimeH)
 	if opt.MaxFitPoints <= 0 {
 		opt.MaxFitPoints = 2000
 	}
@@ -410,7 +487,7 @@ func (r *Result) countRejects() {
 	r.Rejected = 0
 	r.RejectedBy = map[string]int{}
 	for _, c := range r.Points.Reject {
-		if c != KeepOK {
+		if c != KeepOK && c != RejAfterCut {
 			r.Rejected++
 			r.RejectedBy[RejectReason(c)]++
 		}
@@ -511,5 +588,3 @@ func maskNaN(v []float64, keep []bool) []float64 {
 	}
 	return out
 }
-
-func isSorted(t []float64) bool { return sort.Float64sAreSorted(t) }

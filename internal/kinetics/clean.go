@@ -11,7 +11,9 @@ const (
 	RejUnstable          // the balance said it had not settled
 	RejNotPositive       // zero or negative after tare
 	RejSpike             // far off the local trend (a hand, a door, a gust)
-	RejOrder             // time earlier than the reading before
+	RejOrder             // out of time order
+	RejDuplicate         // the same time as an earlier reading
+	RejAfterCut          // after the --until cut: not analysed, not counted as rejected
 )
 
 // RejectReason names a rejection code.
@@ -25,6 +27,10 @@ func RejectReason(code uint8) string {
 		return "spike"
 	case RejOrder:
 		return "out_of_order"
+	case RejDuplicate:
+		return "duplicate_time"
+	case RejAfterCut:
+		return "after_cut"
 	}
 	return ""
 }

@@ -95,8 +95,11 @@ func (l *Live) Add(tH, massG float64, stable int8) LivePoint {
 	case !(net > 0):
 		p.Reject = RejNotPositive
 		return p
-	case l.n > 0 && tH < func() float64 { t, _ := l.at(0); return t }():
+	case l.n > 0 && !(tH > l.lastT()):
 		p.Reject = RejOrder
+		if tH == l.lastT() {
+			p.Reject = RejDuplicate
+		}
 		return p
 	}
 	// A spike: far from where the recent readings, carried on at their
@@ -290,3 +293,6 @@ func (l *Live) period(tH, rate, net float64) Period {
 	}
 	return PeriodFalling
 }
+
+// lastT is the time of the newest reading taken.
+func (l *Live) lastT() float64 { t, _ := l.at(0); return t }

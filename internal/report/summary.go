@@ -61,6 +61,7 @@ type Summary struct {
 	InitialMoistD Num     `json:"initial_moisture_db"`
 	NoiseSDG      Num     `json:"noise_sd_g"`
 	UntilH        Num     `json:"until_h"`
+	AfterCut      int     `json:"readings_after_cut"` // readings later than until_h, not analysed
 }
 
 // ProjectionOut is the projected time to the target.
@@ -182,7 +183,7 @@ func Build(run *Run, res *kinetics.Result, setup kinetics.Setup, untilH float64)
 		TargetMoistureWBPct: Num(res.TargetMoistureWBPct), TargetMassG: Num(res.TargetMassG), TargetReachedH: Num(res.TargetReachedH),
 		DiffusivityM2PerS: Num(math.NaN()), EndOfRunH: Num(res.EndOfRunH), RMSEDefinition: RMSEDefinition,
 		Input: run.Path, InitialDryG: Num(res.InitialDryMassG), InitialMoistD: Num(res.InitialMoistureDB),
-		NoiseSDG: Num(res.NoiseSD), UntilH: Num(untilH),
+		NoiseSDG: Num(res.NoiseSD), UntilH: Num(untilH), AfterCut: res.AfterCut,
 		Models: []ModelOut{}, Removed: []MassAt{}, SuspectedRemovals: []MassAt{}, Notes: []NoteOut{},
 		Warnings: append([]string{}, run.Warnings...),
 	}
@@ -356,7 +357,7 @@ func WriteText(w io.Writer, s Summary) error {
 	}
 	p("; %s analysed", v(s.DurationH, "%.2f", " h"))
 	if !math.IsNaN(float64(s.UntilH)) {
-		p(" (up to %s)", v(s.UntilH, "%.2f", " h"))
+		p(" (up to %s; %d later readings left out)", v(s.UntilH, "%.2f", " h"), s.AfterCut)
 	}
 	p("\n\nMass          initial %s   dry solids %s   final %s\n", v(s.InitialMassG, "%.2f", " g"), v(s.DryMassG, "%.2f", " g"), v(s.FinalMassG, "%.2f", " g"))
 	p("Moisture      final %s wet basis, %s dry basis\n", v(s.FinalMoistureWBPct, "%.1f", " %"), v(s.FinalMoistureDB, "%.3f", ""))

@@ -1,0 +1,86 @@
+package kinetics
+
+import (
+	"math"
+	"sort"
+)
+
+// inOrder picks the readings the analysis can use as a time series: those at
+// or before the cut (all of them when cut is NaN or not positive, whatever
+// their order in the file), with each time used once and times increasing.
+// why[i] is KeepOK for a picked reading, else the reason it was not:
+// RejAfterCut, RejDuplicate (the same time as an earlier reading), RejOrder
+// (out of time order) or RejNotPositive (no time). Out-of-order readings are
+// the fewest that leave the rest in order: the longest increasing run of
+// times is kept, so one early row or a clock set back loses the shorter side
+// only, never the whole run.
+func inOrder(t []float64, cut float64) (pick []int, why []uint8) {
+	n := len(t)
+	why = make([]uint8, n)
+	cutting := !math.IsNaN(cut) && cut > 0
+	sorted := true
+	for i := range t {
+		switch {
+		case math.IsNaN(t[i]) || math.IsInf(t[i], 0):
+			why[i] = RejNotPositive
+		case cutting && t[i] > cut:
+			why[i] = RejAfterCut
+		}
+		if i > 0 && !(t[i] > t[i-1]) {
+			sorted = false
+		}
+	}
+	if sorted {
+		for i := range t {
+			if why[i] == KeepOK {
+				pick = append(pick, i)
+			}
+		}
+		return pick, why
+	}
+	// The same time twice: the first one stands.
+	seen := make(map[float64]struct{}, n)
+	var cand []int
+	for i := range t {
+		if why[i] != KeepOK {
+			continue
+		}
+		if _, dup := seen[t[i]]; dup {
+			why[i] = RejDuplicate
+			continue
+		}
+		seen[t[i]] = struct{}{}
+		cand = append(cand, i)
+	}
+	// Longest strictly increasing subsequence of the candidates' times
+	// (patience sorting, O(n log n)).
+	tails := make([]int, 0, len(cand)) // index into cand of the last element of each length
+	prev := make([]int, len(cand))
+	for c, i := range cand {
+		k := sort.Search(len(tails), func(j int) bool { return t[cand[tails[j]]] >= t[i] })
+		if k > 0 {
+			prev[c] = tails[k-1]
+		} else {
+			prev[c] = -1
+		}
+		if k == len(tails) {
+			tails = append(tails, c)
+		} else {
+			tails[k] = c
+		}
+	}
+	in := make([]bool, len(cand))
+	if len(tails) > 0 {
+		for c := tails[len(tails)-1]; c >= 0; c = prev[c] {
+			in[c] = true
+		}
+	}
+	for c, i := range cand {
+		if in[c] {
+			pick = append(pick, i)
+		} else {
+			why[i] = RejOrder
+		}
+	}
+	return pick, why
+}

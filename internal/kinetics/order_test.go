@@ -1,0 +1,90 @@
+package kinetics
+
+import (
+	"math"
+	"reflect"
+	"testing"
+)
+
+func TestInOrder(t *testing.T) {
+	nan := math.NaN()
+	const (
+		ok  = KeepOK
+		ord = RejOrder
+		dup = RejDuplicate
+		cut = RejAfterCut
+		bad = RejNotPositive
+	)
+	for _, tc := range []struct {
+		name string
+		t    []float64
+		cut  float64
+		pick []int
+		why  []uint8
+	}{
+		{"in order", []float64{0, 1, 2, 3}, nan, []int{0, 1, 2, 3}, []uint8{ok, ok, ok, ok}},
+		{"cut in order", []float64{0, 1, 2, 3}, 1.5, []int{0, 1}, []uint8{ok, ok, cut, cut}},
+		{"cut on a reading keeps it", []float64{0, 1, 2, 3}, 2, []int{0, 1, 2}, []uint8{ok, ok, ok, cut}},
+		// A late first row (a clock or an export glitch) costs that row,
+		// not the run.
+		{"late first row", []float64{500, 0, 10, 20, 30}, nan, []int{1, 2, 3, 4}, []uint8{ord, ok, ok, ok, ok}},
+		{"one row swapped", []float64{0, 1, 3, 2, 4, 5}, nan, []int{0, 1, 3, 4, 5}, []uint8{ok, ok, ord, ok, ok, ok}},
+		{"duplicated last row", []float64{0, 1, 2, 2}, nan, []int{0, 1, 2}, []uint8{ok, ok, ok, dup}},
+		// Cut whatever the order: a late row after the cut is cut, not
+		// allowed to end the series early.
+		{"cut with a row out of order", []float64{0, 1, 5, 2, 3}, 2.5, []int{0, 1, 3}, []uint8{ok, ok, cut, ok, cut}},
+		{"no time", []float64{0, nan, 1}, nan, []int{0, 2}, []uint8{ok, bad, ok}},
+		{"all after the cut", []float64{3, 4}, 1, nil, []uint8{cut, cut}},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			pick, why := inOrder(tc.t, tc.cut)
+			if !reflect.DeepEqual(pick, tc.pick) || !reflect.DeepEqual(why, tc.why) {
+				t.Errorf("inOrder(%v, %v) = %v %v, want %v %v", tc.t, tc.cut, pick, why, tc.pick, tc.why)
+			}
+		})
+	}
+}
+
+// Readings that go back in time do not stop the analysis, and a cut keeps
+// exactly the readings at or before it.
+func TestAnalyzeOutOfOrderAndCut(t *testing.T) {
+	var s Series
+	for i := 0; i <= 600; i++ {
+		th := float64(i) / 60
+		s.TimeH = append(s.TimeH, th)
+		s.Value = append(s.Value, 27+100*math.Exp(-0.5*th))
+	}
+	// Issue 9, case 1: a first row late in time; then a swapped pair and a
+	// duplicated last row, as real exports have.
+	s.TimeH = append([]float64{500.0 / 3600}, s.TimeH...)
+	s.Value = append([]float64{200}, s.Value...)
+	s.TimeH[100], s.TimeH[101] = s.TimeH[101], s.TimeH[100]
+	s.TimeH = append(s.TimeH, s.TimeH[len(s.TimeH)-1])
+	s.Value = append(s.Value, s.Value[len(s.Value)-1])
+	setup := NewSetup()
+	setup.DryMassG = 27
+	setup.TargetWBPct = 18
+	r, err := Analyze(s, setup, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Readings != len(s.TimeH) || r.RejectedBy["out_of_order"] != 2 || r.RejectedBy["duplicate_time"] != 1 {
+		t.Errorf("readings %d, rejected %v", r.Readings, r.RejectedBy)
+	}
+	if len(r.Points.X) != len(s.TimeH) {
+		t.Errorf("points for %d readings, want %d", len(r.Points.X), len(s.TimeH))
+	}
+	c, err := Analyze(s, setup, Options{UntilH: 3})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if c.DurationH > 3 || c.DurationH < 2.98 || !math.IsNaN(c.TargetReachedH) {
+		t.Errorf("cut at 3 h: duration %v, target reached %v", c.DurationH, c.TargetReachedH)
+	}
+	if want := 181 + 1; c.Readings != want || c.AfterCut != len(s.TimeH)-want {
+		t.Errorf("cut at 3 h: %d readings, %d after the cut", c.Readings, c.AfterCut)
+	}
+	if _, err := Analyze(Series{TimeH: []float64{2, 1, 3}, Value: []float64{3, 2, 1}}, setup, Options{UntilH: 0.5}); err != ErrNothingBeforeCut {
+		t.Errorf("cut before the first reading: %v", err)
+	}
+}
