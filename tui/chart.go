@@ -236,7 +236,11 @@ func axisLabel(h, step float64) string {
 // projected course and the note marks, in w×h cells.
 func (m *Model) moistureChart(w, h int) []string {
 	view := moistViews[m.moistView]
-	title := m.styles.Heading.Render(view.name) + m.styles.Dim.Render(" (m: switch)  ─ data  ╌ target  ═ dry solids  · projected")
+	legend := " (m: switch)  ─ data  ╌ target  ═ dry solids  · projected"
+	if m.res != nil && m.res.Projection.Reference != nil {
+		legend += "  ∘ reference"
+	}
+	title := m.styles.Heading.Render(view.name) + m.styles.Dim.Render(legend)
 	lines := []string{truncate(title, w)}
 	n := len(m.th)
 	if n < 2 {
@@ -280,19 +284,26 @@ func (m *Model) moistureChart(w, h int) []string {
 	if m.res != nil && m.moistView == 0 && !math.IsNaN(m.res.DryMassG) {
 		solids = flat(m.res.DryMassG)
 	}
+	ref := nan
 	if m.res != nil && p.TargetH > now && len(p.Path) >= 2 {
-		proj = m.projected(cols, now, t1, p)
+		proj = m.projected(cols, t1, p.Path)
+	}
+	if u := p.Reference; m.res != nil && u != nil && len(u.Path) >= 2 {
+		ref = m.projected(cols, t1, u.Path)
 	}
 	// asciigraph draws in order and a later series covers an earlier one
-	// where they share a cell: the dry solids first, the data and the
-	// projection last.
-	series := [][]float64{solids, target, data, proj}
+	// where they share a cell: the dry solids first, the reference run
+	// under the data, the projection last.
+	series := [][]float64{solids, target, ref, data, proj}
 	lo, hi := seriesRange(series)
 	yfmt, labW2 := yFormat(lo, hi) // wider labels (≥ 1000) push the chart one cell: plot cuts it
-	chars := []asciigraph.CharSet{{Horizontal: "═"}, {Horizontal: "╌"}, {}, {Horizontal: "·", VerticalLine: ":", ArcDownRight: "·", ArcDownLeft: "·", ArcUpRight: "·", ArcUpLeft: "·"}}
+	dotted := func(c string) asciigraph.CharSet {
+		return asciigraph.CharSet{Horizontal: c, VerticalLine: ":", ArcDownRight: c, ArcDownLeft: c, ArcUpRight: c, ArcUpLeft: c}
+	}
+	chars := []asciigraph.CharSet{{Horizontal: "═"}, {Horizontal: "╌"}, dotted("∘"), {}, dotted("·")}
 	var colors []asciigraph.AnsiColor // none on NO_COLOR or monochrome terminals
 	if lipgloss.ColorProfile() != termenv.Ascii {
-		colors = []asciigraph.AnsiColor{asciigraph.Blue, asciigraph.Red, asciigraph.Default, asciigraph.Green}
+		colors = []asciigraph.AnsiColor{asciigraph.Blue, asciigraph.Red, asciigraph.DarkGray, asciigraph.Default, asciigraph.Green}
 	}
 	lines = append(lines, plot(series, w, rows, chars, colors, yfmt)...)
 	left := labW2 + 2
@@ -307,12 +318,11 @@ func (m *Model) moistureChart(w, h int) []string {
 	return lines
 }
 
-// projected is the combined projected course from now to the target, in
-// view units.
-func (m *Model) projected(cols int, now, t1 float64, p kinetics.Projection) []float64 {
+// projected is a projected course (the combined one, or the reference
+// run's) from now to the target, in view units.
+func (m *Model) projected(cols int, t1 float64, path []kinetics.PathPoint) []float64 {
 	out := make([]float64, cols)
 	s := m.res.DryMassG
-	path := p.Path
 	for c := range out {
 		out[c] = math.NaN()
 		t := t1 * float64(c) / float64(cols-1)

@@ -40,6 +40,12 @@ type Options struct {
 	// TickEvery drives the clock and the stall check (default 1 s; negative:
 	// no clock, for tests that drive time themselves).
 	TickEvery time.Duration
+	// Reference is an earlier run of the same product for the projection
+	// (nil: none); its course is drawn dimmed on the moisture chart.
+	Reference *kinetics.Reference
+	// Notice is shown on the message line at the start (a warning about
+	// the setup, say).
+	Notice string
 }
 
 type mode int
@@ -147,6 +153,7 @@ func New(opt Options) Model {
 		livePt: kinetics.LivePoint{RateGPH: math.NaN(), X: math.NaN()},
 	}
 	m.lastGood = m.livePt
+	m.flash = opt.Notice
 	return m
 }
 
@@ -295,7 +302,7 @@ func (m *Model) maybeAnalyze() tea.Cmd {
 	s := kinetics.Series{TimeH: m.th[:n:n], Value: m.raw[:n:n], Stable: m.stable[:n:n]}
 	setup := m.setupWithRemovals()
 	return func() tea.Msg {
-		res, err := kinetics.Analyze(s, setup, kinetics.Options{})
+		res, err := kinetics.Analyze(s, setup, kinetics.Options{Reference: m.opt.Reference})
 		return analysisMsg{res: res, n: n, setup: setup, err: err}
 	}
 }

@@ -332,3 +332,42 @@ func TestGoldenViews(t *testing.T) {
 		})
 	}
 }
+
+// With a reference run, the dashboard draws its course dimmed on the
+// moisture chart and names it in the figures (issue 8).
+func TestReferenceRunShown(t *testing.T) {
+	sc := simulate.AppleRings()
+	sc.DiffusivityM2s = 4e-10 // an earlier, slower run of the invented product
+	mod, err := simulate.NewModel(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var s kinetics.Series
+	mod.Run(3, func(p simulate.Sample) bool {
+		s.TimeH = append(s.TimeH, p.ElapsedS/3600)
+		s.Value = append(s.Value, p.MassG)
+		return true
+	})
+	res, err := kinetics.Analyze(s, demoSetup(), kinetics.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ref, err := kinetics.NewReference("earlier.jsonl", s, res)
+	if err != nil {
+		t.Fatal(err)
+	}
+	m := New(Options{Title: "test.jsonl · demo", Notes: &memSink{}, Setup: demoSetup(), Reference: ref, AirLow: math.NaN(), AirHigh: math.NaN(),
+		Now: func() time.Time { return start.Add(3 * time.Hour) }, TickEvery: -1})
+	m = step(t, m, tea.WindowSizeMsg{Width: 160, Height: 48})
+	m = step(t, m, eventsMsg(simEvents(t, 3)))
+	v := plain(m.View())
+	for _, want := range []string{"∘ reference", "reference earlier.jsonl, weight", "80 % range"} {
+		if !strings.Contains(v, want) {
+			t.Errorf("screen lacks %q:\n%s", want, v)
+		}
+	}
+	// The legend, then the course where the projection does not cover it.
+	if strings.Count(v, "∘") < 2 {
+		t.Errorf("the reference course is not drawn:\n%s", v)
+	}
+}

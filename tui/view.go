@@ -3,6 +3,7 @@ package tui
 import (
 	"fmt"
 	"math"
+	"path/filepath"
 	"strings"
 	"time"
 
@@ -247,14 +248,20 @@ func (m *Model) projectionLines(row func(string, string) string, w int) []string
 	case p.Method == kinetics.ProjReached:
 		out = append(out, row("reached", s.Good.Render(m.clockAt(p.TargetH)+" ("+fmtHM(p.TargetH)+")")))
 	case !math.IsNaN(p.TargetH):
-		left := p.TargetH - m.elapsedNow()
-		v := m.clockAt(p.TargetH) + ", in " + fmtHM(left)
-		out = append(out, row("projected", v))
-		rng := "not before " + m.clockAt(p.LowH)
-		if !math.IsNaN(p.HighH) {
-			rng = m.clockAt(p.LowH) + " to " + m.clockAt(p.HighH)
+		// The estimate and its range on one line, as an operator reads it.
+		est, rng := m.clockAt(p.TargetH), "("+m.clockAt(p.LowH)+" to "+m.clockAt(p.HighH)+")"
+		left := "in " + fmtHM(p.TargetH-m.elapsedNow())
+		if level := fmt.Sprintf(", %.0f %% range", 100*p.Level); 10+len(left)+len(level) <= w {
+			left += level
 		}
-		out = append(out, row("range", rng))
+		if 10+len(est)+1+len(rng) <= w {
+			out = append(out, row("projected", est+" "+rng), row("", s.Dim.Render(left)))
+		} else { // a narrow panel: the range on its own line
+			out = append(out, row("projected", est+" "+s.Dim.Render(left)), row("", rng))
+		}
+		if u := p.Reference; u != nil {
+			out = append(out, row("reference", truncate(fmt.Sprintf("%s, weight %.2f", filepath.Base(u.Name), u.Weight), max(w-10, 8))))
+		}
 	default:
 		why := p.Why
 		if why == "" {

@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"parch/internal/recorder"
+	"parch/internal/report"
 	"parch/internal/session"
 )
 
@@ -33,6 +34,9 @@ func runRecord(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	src.setup = params
+	if src.reference, err = sf.referenceToRecord(); err != nil {
+		return err
+	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
 	return record(ctx, &src, *status, func(s recorder.Stats) string { return statusLine(time.Now(), s) }, stdout, stderr)
@@ -58,8 +62,12 @@ func record(ctx context.Context, sf *sourceFlags, statusEvery time.Duration, sta
 	} else {
 		fmt.Fprintf(stdout, "recording %s into %s\n", what, path)
 	}
-	if len(sf.setup) > 0 {
-		if err := log.Append(&session.Event{Type: session.TypeSetup, T: now, Params: anyMap(sf.setup)}); err != nil {
+	if len(sf.setup) > 0 || sf.reference != "" {
+		p := anyMap(sf.setup)
+		if sf.reference != "" {
+			p[report.KeyReferenceFile] = sf.reference
+		}
+		if err := log.Append(&session.Event{Type: session.TypeSetup, T: now, Params: p}); err != nil {
 			log.Close()
 			return err
 		}

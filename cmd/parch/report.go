@@ -94,7 +94,11 @@ func analyse(path string, opt ingest.TableOptions, sf *setupFlags, until float64
 	if err != nil {
 		return nil, err
 	}
-	res, err := kinetics.Analyze(run.Series, setup, kinetics.Options{UntilH: until})
+	ref, warning, err := sf.loadReference(run.ReferenceFile)
+	if err != nil {
+		return nil, err
+	}
+	res, err := kinetics.Analyze(run.Series, setup, kinetics.Options{UntilH: until, Reference: ref})
 	if errors.Is(err, kinetics.ErrNoReadings) {
 		return nil, fmt.Errorf("%s has no readings to analyse", path)
 	}
@@ -104,6 +108,9 @@ func analyse(path string, opt ingest.TableOptions, sf *setupFlags, until float64
 	}
 	if err != nil {
 		return nil, err
+	}
+	if warning != "" {
+		res.Warnings = append(res.Warnings, warning)
 	}
 	if !math.IsNaN(until) && res.AfterCut == 0 {
 		res.Warnings = append(res.Warnings, fmt.Sprintf("--until %s: no reading is later than that, so nothing was cut", sf.until))

@@ -323,3 +323,50 @@ func TestReportUntilCutsAnyOrder(t *testing.T) {
 		}
 	}
 }
+
+// --reference (issue 8): an earlier run of the same product takes part in
+// the projection and is named in the JSON; one in another unit is not used
+// and says why; a reference that cannot be read is a usage error.
+func TestReportReference(t *testing.T) {
+	dir := t.TempDir()
+	if _, stderr, code := parch(t, dir, "record", "--demo", "--speed", "0", "--session", "ref.jsonl", "--status", "0", "--initial-moisture", "86.5"); code != 0 {
+		t.Fatal(stderr)
+	}
+	// This run: the same invented product drying faster (another seed).
+	if _, stderr, code := parch(t, dir, "simulate", "--out", "run.csv", "--seed", "2", "--diffusivity", "7e-10"); code != 0 {
+		t.Fatal(stderr)
+	}
+	setup := []string{"run.csv", "--initial-moisture", "86.5", "--target", "18", "--equilibrium", "0.05"}
+	full := reportJSON(t, dir, setup...)
+	truth := num(t, full, "target_reached_h")
+	m := reportJSON(t, dir, append(setup, "--until", "2h", "--reference", "ref.jsonl")...)
+	p, _ := m["projection"].(map[string]any)
+	ref, _ := p["reference"].(map[string]any)
+	if ref == nil || ref["file"] != "ref.jsonl" || !(num(t, ref, "weight") > 0) {
+		t.Fatalf("projection.reference = %v", p["reference"])
+	}
+	if lo, hi := num(t, p, "low_h"), num(t, p, "high_h"); lo > truth || hi < truth {
+		t.Errorf("with the reference: range %v to %v misses %v h", lo, hi, truth)
+	}
+	// A moisture table in percent (another unit): not used, and said.
+	os.WriteFile(filepath.Join(dir, "pct.csv"), []byte("time (min),X_db\n0,640\n60,420\n120,250\n180,140\n240,80\n300,45\n360,30\n"), 0o644)
+	m = reportJSON(t, dir, append(setup, "--until", "2h", "--reference", "pct.csv")...)
+	if p, _ := m["projection"].(map[string]any); p["reference"] != nil || !strings.Contains(fmt.Sprint(m["warnings"]), "another unit") {
+		t.Errorf("a reference in percent: projection.reference %v, warnings %v", p["reference"], m["warnings"])
+	}
+	if _, stderr, code := parch(t, dir, append([]string{"report"}, append(setup, "--reference", "nowhere.jsonl")...)...); code != 2 || !strings.Contains(stderr, "--reference nowhere.jsonl") {
+		t.Errorf("missing reference: exit %d, %q", code, stderr)
+	}
+	// A mass table without its dry solids cannot be a reference.
+	if _, stderr, code := parch(t, dir, append([]string{"report"}, append(setup, "--reference", "run.csv")...)...); code != 2 || !strings.Contains(stderr, "initial moisture") {
+		t.Errorf("reference without moisture: exit %d, %q", code, stderr)
+	}
+	// record --reference names it in the log; report then uses it.
+	if _, stderr, code := parch(t, dir, "record", "--demo", "--speed", "0", "--session", "next.jsonl", "--status", "0", "--initial-moisture", "86.5", "--target", "18", "--reference", "ref.jsonl"); code != 0 {
+		t.Fatal(stderr)
+	}
+	m = reportJSON(t, dir, "next.jsonl", "--until", "2h")
+	if p, _ := m["projection"].(map[string]any); p["reference"] == nil {
+		t.Errorf("the log's reference was not used: %v", m["projection"])
+	}
+}

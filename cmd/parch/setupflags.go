@@ -4,6 +4,7 @@ import (
 	"flag"
 	"fmt"
 	"math"
+	"path/filepath"
 	"strconv"
 	"strings"
 	"time"
@@ -15,14 +16,15 @@ import (
 // setupFlags are the run parameters a user can give on the command line;
 // only the flags given override what the session log says.
 type setupFlags struct {
-	fs       *flag.FlagSet
-	vals     map[string]*float64 // flag name -> value
-	keys     map[string]string   // flag name -> the session log's setup key
-	faces    int
-	removed  removals
-	until    string
-	targetDB float64
-	defaults map[string]float64 // values used when neither the log nor a flag gives one
+	fs        *flag.FlagSet
+	vals      map[string]*float64 // flag name -> value
+	keys      map[string]string   // flag name -> the session log's setup key
+	faces     int
+	removed   removals
+	until     string
+	targetDB  float64
+	reference string             // --reference FILE
+	defaults  map[string]float64 // values used when neither the log nor a flag gives one
 }
 
 type removals []kinetics.Removal
@@ -75,6 +77,44 @@ func (sf *setupFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&sf.faces, "faces", 0, "drying faces: 1 on a solid tray, 2 on a mesh (default 2)")
 	num("steady-pct", report.KeySteadyPct, "end of run when the weight changes less than this `PCT` over --steady-window (default 0.5)")
 	num("steady-window", report.KeySteadyWindowH, "window for the end-of-run test, `HOURS` (default 1)")
+	fs.StringVar(&sf.reference, "reference", "", "an earlier run of the same product, `FILE` (a session log with its setup, or a table of moisture or moisture ratio): its drying curve helps the projection")
+}
+
+// referenceToRecord checks --reference and returns its absolute path, for
+// the session log's setup ("" when not given).
+func (sf *setupFlags) referenceToRecord() (string, error) {
+	if sf.reference == "" {
+		return "", nil
+	}
+	if _, _, err := sf.loadReference(""); err != nil {
+		return "", err
+	}
+	abs, err := filepath.Abs(sf.reference)
+	if err != nil {
+		return "", usagef("--reference %s: %v", sf.reference, err)
+	}
+	return abs, nil
+}
+
+// loadReference reads the reference run: the --reference file, else the
+// one the session log names (logRef). A --reference that cannot be used is
+// an error; one named by the log that has gone is a warning.
+func (sf *setupFlags) loadReference(logRef string) (*kinetics.Reference, string, error) {
+	if sf.reference != "" {
+		ref, err := report.LoadReference(sf.reference)
+		if err != nil {
+			return nil, "", usagef("--reference %s: %v", sf.reference, err)
+		}
+		return ref, "", nil
+	}
+	if logRef == "" {
+		return nil, "", nil
+	}
+	ref, err := report.LoadReference(logRef)
+	if err != nil {
+		return nil, fmt.Sprintf("the reference run the log names is not used: %v", err), nil
+	}
+	return ref, "", nil
 }
 
 // registerAnalysis adds the flags that only make sense when analysing a

@@ -37,6 +37,9 @@ type sourceFlags struct {
 
 	session string
 	setup   map[string]float64 // run parameters to record at the start (record's setup flags)
+	// reference is the reference run to name in the log's setup (an
+	// absolute path), "" for none.
+	reference string
 }
 
 func (s *sourceFlags) register(fs *flag.FlagSet) {

@@ -104,8 +104,19 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 		}
 		report.ApplyParams(&setup, log.SetupParams())
 		report.ApplyParams(&setup, flagParams)
-		if len(flagParams) > 0 {
-			if err := session.AppendOnce(src.session, &session.Event{Type: session.TypeSetup, T: now, Params: anyMap(flagParams)}); err != nil {
+		refPath, err := sf.referenceToRecord()
+		if err != nil {
+			return err
+		}
+		if opt.Reference, opt.Notice, err = sf.loadReference(log.SetupText(report.KeyReferenceFile)); err != nil {
+			return err
+		}
+		if len(flagParams) > 0 || refPath != "" {
+			p := anyMap(flagParams)
+			if refPath != "" {
+				p[report.KeyReferenceFile] = refPath
+			}
+			if err := session.AppendOnce(src.session, &session.Event{Type: session.TypeSetup, T: now, Params: p}); err != nil {
 				return err
 			}
 		}
@@ -134,13 +145,20 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 				return err
 			}
 		}
-		w, _, err := session.CreateOrOpen(path, program, now)
+		refPath, err := sf.referenceToRecord()
 		if err != nil {
 			return err
 		}
-		logParams := map[string]float64{}
+		logParams, logRef := map[string]float64{}, ""
 		if earlier != nil {
-			logParams = earlier.SetupParams()
+			logParams, logRef = earlier.SetupParams(), earlier.SetupText(report.KeyReferenceFile)
+		}
+		if opt.Reference, opt.Notice, err = sf.loadReference(logRef); err != nil {
+			return err
+		}
+		w, _, err := session.CreateOrOpen(path, program, now)
+		if err != nil {
+			return err
 		}
 		// Defaults (the demo's), then what the log says, then the flags.
 		report.ApplyParams(&setup, sf.defaults)
@@ -159,8 +177,12 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 				record[k] = v
 			}
 		}
-		if len(record) > 0 {
-			if err := w.Append(&session.Event{Type: session.TypeSetup, T: now, Params: anyMap(record)}); err != nil {
+		p := anyMap(record)
+		if refPath != "" && refPath != logRef {
+			p[report.KeyReferenceFile] = refPath
+		}
+		if len(p) > 0 {
+			if err := w.Append(&session.Event{Type: session.TypeSetup, T: now, Params: p}); err != nil {
 				w.Close()
 				return err
 			}

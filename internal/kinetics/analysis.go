@@ -450,7 +450,13 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 
 	// Projection to the target.
 	if solids != nil && !math.IsNaN(setup.TargetX()) {
-		r.track = newTrack(t, pts.X, keep, xe, r.InitialMoistureDB, setup.TargetX(), opt.Reference)
+		ref := opt.Reference
+		if ref != nil && !ref.Overlaps(r.InitialMoistureDB, setup.TargetX()) {
+			r.warn("reference run %s not used: its moisture (%.3g to %.3g dry basis) does not meet this run's (%.3g down to the target %.3g); another product or another unit?",
+				ref.Name, ref.X0, ref.XEnd, r.InitialMoistureDB, setup.TargetX())
+			ref = nil
+		}
+		r.track = newTrack(t, pts.X, keep, xe, r.InitialMoistureDB, setup.TargetX(), ref)
 	}
 	switch {
 	case !math.IsNaN(r.TargetReachedH):

@@ -16,6 +16,9 @@ type Reference struct {
 	Name  string
 	TimeH []float64 // hours from the reference's first reading
 	MR    []float64 // free moisture ratio (X − X_e)/(X0 − X_e), non-increasing
+	// X0, XEnd: its dry-basis moisture at the start and the lowest it
+	// reached (NaN when only its moisture ratio is known).
+	X0, XEnd float64
 	// tail: beyond its last reading the curve goes on as its own final
 	// exponential decay, MR_end·e^(−tailK·(t − t_end)); 0 when it had
 	// levelled off.
@@ -41,7 +44,37 @@ func NewReference(name string, s Series, r *Result) (*Reference, error) {
 		return nil, fmt.Errorf("%s: %w (give its initial moisture or dry mass)", name, ErrReferenceUnusable)
 	}
 	t, mr := binned(s.TimeH[:len(keep)], r.Points.MR, keep, maxBins)
-	return ReferenceFromCurve(name, t, mr)
+	ref, err := ReferenceFromCurve(name, t, mr)
+	if err != nil {
+		return nil, err
+	}
+	if s.Kind != SeriesMR {
+		ref.X0 = r.InitialMoistureDB
+		ref.XEnd = math.Inf(1)
+		for i, x := range r.Points.X {
+			if keep[i] && x < ref.XEnd {
+				ref.XEnd = x
+			}
+		}
+	}
+	return ref, nil
+}
+
+// Overlaps reports whether the reference's moisture range (dry basis)
+// meets this run's, from x0 down to the target xt, and starts within a
+// factor of 3 of it (fresh fruit and vegetables start between about 3 and
+// 12 kg/kg: common practice). A reference known only as a moisture ratio
+// always does. One that does not is another product or another unit (wet
+// basis fractions or percent read as dry basis), and is not used.
+func (ref *Reference) Overlaps(x0, xt float64) bool {
+	if math.IsNaN(ref.X0) || math.IsNaN(ref.XEnd) || math.IsNaN(x0) {
+		return true
+	}
+	if r := ref.X0 / x0; !(r >= 1.0/3 && r <= 3) {
+		return false
+	}
+	lo, hi := math.Max(ref.XEnd, xt), math.Min(ref.X0, x0)
+	return hi > lo
 }
 
 // ReferenceFromCurve makes a reference from a moisture-ratio curve (times
@@ -52,7 +85,7 @@ func ReferenceFromCurve(name string, t, mr []float64) (*Reference, error) {
 	if len(t) != len(mr) || len(t) < 4 {
 		return nil, fmt.Errorf("%s: %w (fewer than 4 readings)", name, ErrReferenceUnusable)
 	}
-	ref := &Reference{Name: name}
+	ref := &Reference{Name: name, X0: math.NaN(), XEnd: math.NaN()}
 	low := math.Inf(1)
 	for i := range t {
 		if !finite(t[i], mr[i]) {
@@ -187,9 +220,10 @@ type ReferenceUse struct {
 	Name     string
 	TargetH  float64 // what it projected on its own
 	Weight   float64
-	Error    float64 // median |relative error| in the back-test
-	LowestMR float64 // how far down the reference's own data go
-	Note     string  // where it could not be used
+	Error    float64     // median |relative error| in the back-test
+	LowestMR float64     // how far down the reference's own data go
+	Note     string      // where it could not be used
+	Path     []PathPoint // its course from now to the target, scaled to this run
 }
 
 // describeReference fills in the reference's part of a projection.
@@ -206,8 +240,34 @@ func (tr *track) describeReference(p *Projection) {
 			}
 		}
 	}
+	u.Path = tr.referencePath()
 	if mrT := tr.level / tr.y0; mrT < u.LowestMR && u.Note == "" {
 		u.Note = fmt.Sprintf("the reference reaches only a moisture ratio of %.3f and the target is %.3f: below it, its final decay is carried on", u.LowestMR, mrT)
 	}
 	p.Reference = u
+}
+
+// referencePath samples the reference's course, as scaled at the newest
+// cut, from now down to the target (nil when it does not project).
+func (tr *track) referencePath() []PathPoint {
+	b := tr.backtest()
+	if len(b.cuts) == 0 {
+		return nil
+	}
+	c := b.cuts[len(b.cuts)-1]
+	cr := c.courses[len(c.courses)-1] // the reference is the last method
+	if b.methods[len(b.methods)-1].name != MethodReference || cr == nil {
+		return nil
+	}
+	end := crossing(cr, c.at, tr.level, b.horizon(c.at))
+	if !finite(end) || !(end > c.at) {
+		return nil
+	}
+	const steps = 24
+	out := make([]PathPoint, 0, steps+1)
+	for i := 0; i <= steps; i++ {
+		at := c.at + (end-c.at)*float64(i)/steps
+		out = append(out, PathPoint{TimeH: at, MoistureDB: cr(at) + tr.xe})
+	}
+	return out
 }

@@ -31,7 +31,9 @@ type Run struct {
 	Channels map[string][]float32
 	Notes    []Note
 	Params   map[string]float64 // setup keys from the log, later ones winning
-	Warnings []string           // lines skipped while reading
+	// ReferenceFile is the reference run the log names (KeyReferenceFile).
+	ReferenceFile string
+	Warnings      []string // lines skipped while reading
 }
 
 // Note is an operator's note placed on the run's timeline.
@@ -57,6 +59,8 @@ const (
 	KeyFaces             = "faces"
 	KeySteadyPct         = "steady_pct"
 	KeySteadyWindowH     = "steady_window_h"
+	// KeyReferenceFile names the reference run (a text value).
+	KeyReferenceFile = "reference_file"
 )
 
 // TableOptionsNone reads a CSV with every column guessed from its header.
@@ -103,6 +107,7 @@ func loadSession(path string, r io.Reader) (*Run, error) {
 		}
 	}
 	run.Params = log.SetupParams()
+	run.ReferenceFile = log.SetupText(KeyReferenceFile)
 	for _, e := range log.Notes {
 		at := e.T
 		if !e.ReadingT.IsZero() {

@@ -3,7 +3,6 @@ package report
 import (
 	"errors"
 	"fmt"
-	"path/filepath"
 
 	"parch/internal/kinetics"
 )
@@ -27,5 +26,5 @@ func LoadReference(path string) (*kinetics.Reference, error) {
 	if err != nil {
 		return nil, fmt.Errorf("reference run %s: %w", path, err)
 	}
-	return kinetics.NewReference(filepath.Base(path), run.Series, res)
+	return kinetics.NewReference(path, run.Series, res)
 }

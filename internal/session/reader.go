@@ -88,6 +88,18 @@ func (l *Log) SetupParams() map[string]float64 {
 	return out
 }
 
+// SetupText is the latest text value of a setup key (like
+// "reference_file"), "" when none.
+func (l *Log) SetupText(key string) string {
+	out := ""
+	for _, s := range l.Setups {
+		if v, ok := s.Params[key].(string); ok {
+			out = v
+		}
+	}
+	return out
+}
+
 // MaxWarnings caps the per-line warnings kept.
 const MaxWarnings = 20
 
