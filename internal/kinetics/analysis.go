@@ -205,11 +205,19 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 	pts.NetG = make([]float64, n)
 	pts.Reject = make([]uint8, n)
 	keep := make([]bool, n)
+	// A moisture ratio becomes dry-basis moisture when the initial moisture
+	// is known: X = X_e + MR·(X0 − X_e).
+	mrX0 := math.NaN()
+	if s.Kind == SeriesMR && !math.IsNaN(setup.InitialMoistureWB) {
+		mrX0 = WetToDry(setup.InitialMoistureWB / 100)
+	}
 	for i := 0; i < n; i++ {
 		v := s.Value[i]
-		switch s.Kind {
-		case SeriesMass:
+		switch {
+		case s.Kind == SeriesMass:
 			v -= tare
+		case !math.IsNaN(mrX0):
+			v = 1 + setup.EquilibriumDB + v*(mrX0-setup.EquilibriumDB)
 		default:
 			v = 1 + v
 		}
@@ -321,7 +329,8 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 	pts.RateDB = nanSlice(n0)
 	pts.Flux = nanSlice(n0)
 	xe := setup.EquilibriumDB
-	if s.Kind == SeriesMR {
+	ratioOnly := s.Kind == SeriesMR && math.IsNaN(mrX0) // moisture contents not known
+	if ratioOnly {
 		xe = 0
 	}
 	if solids != nil {
@@ -357,7 +366,10 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 		if xf < 0 {
 			r.warn("the final mass %.2f g is below the dry solids %.2f g: check the dry mass or the initial moisture", r.FinalMassG, sEnd)
 		}
-		if xt := setup.TargetX(); !math.IsNaN(xt) {
+		if xt := setup.TargetX(); ratioOnly && !math.IsNaN(xt) {
+			r.Projection = NoProjection("the input is a moisture ratio: give the initial moisture (--initial-moisture) to place the target on it")
+			r.warn("projection: %s", r.Projection.Why)
+		} else if !math.IsNaN(xt) {
 			r.TargetMoistureWBPct = 100 * DryToWet(xt)
 			r.TargetMassG = sEnd * (1 + xt)
 			r.TargetReachedH = reachedAt(t, pts.SmoothG, keep, solids, xt)
@@ -449,7 +461,7 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 	}
 
 	// Projection to the target.
-	if solids != nil && !math.IsNaN(setup.TargetX()) {
+	if solids != nil && !math.IsNaN(setup.TargetX()) && !ratioOnly {
 		ref := opt.Reference
 		if ref != nil && !ref.Overlaps(r.InitialMoistureDB, setup.TargetX()) {
 			r.warn("reference run %s not used: its moisture (%.3g to %.3g dry basis) does not meet this run's (%.3g down to the target %.3g); another product or another unit?",
@@ -479,9 +491,11 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 		if r.ConstantRate != nil {
 			r.ConstantRate.RateGPerH = nan
 		}
-		if s.Kind == SeriesMR {
+		if ratioOnly {
 			r.FinalMoistureDB, r.FinalMoistureWBPct, r.InitialMoistureDB, r.TargetMoistureWBPct = nan, nan, nan, nan
-			r.warn("input is a moisture ratio: no masses or moisture contents, only fits and times")
+			r.warn("input is a moisture ratio: no masses or moisture contents, only fits and times (give --initial-moisture for moisture contents)")
+		} else if s.Kind == SeriesMR {
+			r.warn("input is a moisture ratio, turned into moisture content with the initial moisture given: figures in grams are not known")
 		} else {
 			r.warn("input is dry-basis moisture: figures in grams are not known")
 		}

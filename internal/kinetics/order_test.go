@@ -3,6 +3,7 @@ package kinetics
 import (
 	"math"
 	"reflect"
+	"strings"
 	"testing"
 )
 
@@ -86,5 +87,34 @@ func TestAnalyzeOutOfOrderAndCut(t *testing.T) {
 	}
 	if _, err := Analyze(Series{TimeH: []float64{2, 1, 3}, Value: []float64{3, 2, 1}}, setup, Options{UntilH: 0.5}); err != ErrNothingBeforeCut {
 		t.Errorf("cut before the first reading: %v", err)
+	}
+}
+
+// A moisture-ratio table with the initial moisture given becomes moisture
+// content, X = X_e + MR·(X0 − X_e) (the definition of MR); without it, no
+// moisture target can be placed on it and the projection says so.
+func TestMoistureRatioInput(t *testing.T) {
+	// Salehi and Inanloodoghouz (2023), Table 1 (testdata/published).
+	s := Series{Kind: SeriesMR, TimeH: []float64{0, 0.25, 0.5, 0.75, 1, 1.25, 1.5},
+		Value: []float64{1, 0.646, 0.525, 0.408, 0.329, 0.258, 0.192}}
+	setup := NewSetup()
+	setup.TargetWBPct = 30
+	r, err := Analyze(s, setup, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.Projection.Method != ProjNone || !strings.Contains(r.Projection.Why, "initial moisture") {
+		t.Errorf("MR without X0: projection %+v", r.Projection)
+	}
+	setup.InitialMoistureWB = 80 // X0 = 4 (invented for the test)
+	r, err = Analyze(s, setup, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if x := r.Points.X; math.Abs(x[0]-4) > 1e-9 || math.Abs(x[6]-0.192*4) > 1e-9 {
+		t.Errorf("X from MR: %v", x)
+	}
+	if math.IsNaN(r.Projection.TargetH) || r.Projection.TargetH < 1.5 {
+		t.Errorf("projection to 30 %% wb (X 0.43) from X 0.77: %+v", r.Projection)
 	}
 }
