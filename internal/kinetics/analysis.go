@@ -468,6 +468,9 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 				ref.Name, ref.X0, ref.XEnd, r.InitialMoistureDB, setup.TargetX())
 			ref = nil
 		}
+		if ref != nil {
+			ref = ref.ForEquilibrium(xe)
+		}
 		r.track = newTrack(t, pts.X, keep, xe, r.InitialMoistureDB, setup.TargetX(), ref)
 	}
 	switch {

@@ -19,6 +19,7 @@ type Reference struct {
 	// X0, XEnd: its dry-basis moisture at the start and the lowest it
 	// reached (NaN when only its moisture ratio is known).
 	X0, XEnd float64
+	xt, x    []float64 // its dry-basis moisture against time (binned), when known
 	// tail: beyond its last reading the curve goes on as its own final
 	// exponential decay, MR_end·e^(−tailK·(t − t_end)); 0 when it had
 	// levelled off.
@@ -48,7 +49,7 @@ func NewReference(name string, s Series, r *Result) (*Reference, error) {
 	if err != nil {
 		return nil, err
 	}
-	if s.Kind != SeriesMR {
+	if s.Kind != SeriesMR || !math.IsNaN(r.InitialMoistureDB) {
 		ref.X0 = r.InitialMoistureDB
 		ref.XEnd = math.Inf(1)
 		for i, x := range r.Points.X {
@@ -56,8 +57,30 @@ func NewReference(name string, s Series, r *Result) (*Reference, error) {
 				ref.XEnd = x
 			}
 		}
+		ref.xt, ref.x = binned(s.TimeH[:len(keep)], r.Points.X, keep, maxBins)
 	}
 	return ref, nil
+}
+
+// ForEquilibrium is the reference's curve as a free moisture ratio with
+// this run's equilibrium moisture xe: both runs then measure their way down
+// to the same floor (a reference recorded without an equilibrium moisture
+// would otherwise be read as drying more slowly near the end). A reference
+// known only as a moisture ratio is returned as it is.
+func (ref *Reference) ForEquilibrium(xe float64) *Reference {
+	if len(ref.x) < 4 || !(ref.X0 > xe) {
+		return ref
+	}
+	mr := make([]float64, len(ref.x))
+	for i, x := range ref.x {
+		mr[i] = (x - xe) / (ref.X0 - xe)
+	}
+	out, err := ReferenceFromCurve(ref.Name, ref.xt, mr)
+	if err != nil {
+		return ref
+	}
+	out.X0, out.XEnd, out.xt, out.x = ref.X0, ref.XEnd, ref.xt, ref.x
+	return out
 }
 
 // Overlaps reports whether the reference's moisture range (dry basis)

@@ -73,6 +73,9 @@ type cutResult struct {
 	lo, hi          float64 // the range's ends, as relative errors
 	held            bool
 	wrongLow        bool // the low end was later than the truth
+	refHeld         bool // with the reference: the range held
+	refWrongLow     bool
+	refLo, refHi    float64
 }
 
 // backtestMeasured cuts every measured run at fractions of the time it took
@@ -127,7 +130,10 @@ func backtestMeasured(t *testing.T) []cutResult {
 					if err != nil {
 						t.Fatal(err)
 					}
-					c.refE = (rres.Projection.TargetH - actual) / actual
+					rp := rres.Projection
+					c.refE = (rp.TargetH - actual) / actual
+					c.refHeld, c.refWrongLow = rp.LowH <= actual && actual <= rp.HighH, rp.LowH > actual
+					c.refLo, c.refHi = (rp.LowH-actual)/actual, (rp.HighH-actual)/actual
 				}
 				out = append(out, c)
 			}
@@ -160,7 +166,7 @@ func TestProjectionOnMeasuredRuns(t *testing.T) {
 		t.Fatal("no measured cut points")
 	}
 	var at40, base40, ref40 []float64
-	held, wrong := 0, 0
+	held, wrong, refN, refHeld, refWrong := 0, 0, 0, 0, 0
 	for _, c := range cuts {
 		t.Logf("%-30s at %.0f %%: error %+6.1f %% (range %+6.1f to %+6.1f)  ln-line %+6.1f %%  with reference %+6.1f %%",
 			c.run, 100*c.frac, 100*c.err, 100*c.lo, 100*c.hi, 100*c.base, 100*c.refE)
@@ -173,12 +179,28 @@ func TestProjectionOnMeasuredRuns(t *testing.T) {
 		if c.wrongLow {
 			wrong++
 		}
+		if !math.IsNaN(c.refE) {
+			refN++
+			if c.refHeld {
+				refHeld++
+			}
+			if c.refWrongLow {
+				refWrong++
+			}
+			t.Logf("%-30s    with reference: range %+6.1f to %+6.1f", "", 100*c.refLo, 100*c.refHi)
+		}
 	}
 	med, p90 := quantileAbs(at40, 0.5), quantileAbs(at40, 0.9)
 	cover := float64(held) / float64(len(cuts))
 	t.Logf("at 40 %%: median |error| %.1f %% (ln-line %.1f %%), 90th percentile %.1f %%; with a reference %.1f %%",
 		100*med, 100*quantileAbs(base40, 0.5), 100*p90, 100*quantileAbs(ref40, 0.5))
 	t.Logf("80 %% range held %d of %d cut points (%.0f %%); %d low ends later than the truth", held, len(cuts), 100*cover, wrong)
+	if refN > 0 {
+		t.Logf("with a reference: the range held %d of %d (%.0f %%); %d low ends later than the truth", refHeld, refN, 100*float64(refHeld)/float64(refN), refWrong)
+		if float64(refHeld) < 0.7*float64(refN) || float64(refWrong) > 2.0/52*float64(refN) {
+			t.Errorf("with a reference: the range held %d of %d, %d low ends later than the truth", refHeld, refN, refWrong)
+		}
+	}
 	if med > 0.15 || p90 > 0.35 {
 		t.Errorf("at 40 %%: median |error| %.1f %%, 90th percentile %.1f %% (want <= 15 %% and <= 35 %%)", 100*med, 100*p90)
 	}
