@@ -3,6 +3,7 @@ package ingest
 import (
 	"fmt"
 	"strings"
+	"unicode/utf8"
 )
 
 // Stability is what a balance said about a reading: settled, still moving, or
@@ -126,6 +127,9 @@ func lookupUnit(word string) (Unit, bool) {
 func ParseLine(s string, noUnit Unit) Line {
 	if noUnit <= 0 {
 		noUnit = Gram
+	}
+	if why := notBalanceText(s); why != "" {
+		return Line{Kind: LineUnparseable, Reason: why}
 	}
 	var toks [24]token
 	n := tokenize(s, toks[:])
@@ -555,4 +559,29 @@ func looksLikeText(s string) bool {
 		}
 	}
 	return printable*10 >= len(s)*9
+}
+
+// MaxBalanceLine is the longest line taken as a balance's output: balances
+// print a number and a few words, well under this.
+const MaxBalanceLine = 96
+
+// notBalanceText says why s cannot be a balance line ("" when it can be):
+// balances print text, so a control byte (other than a tab, or the STX and
+// ETX some balances frame a line with), a byte that is not UTF-8, or a
+// long line is noise: a wrong baud rate, a loose cable, another device.
+func notBalanceText(s string) string {
+	t := strings.TrimLeft(s, "\x02")
+	t = strings.TrimRight(t, "\x03")
+	if len(strings.TrimSpace(t)) > MaxBalanceLine {
+		return fmt.Sprintf("longer than %d characters: not a balance line", MaxBalanceLine)
+	}
+	for i := 0; i < len(t); i++ {
+		if c := t[i]; (c < 0x20 && c != '\t') || c == 0x7f {
+			return "control bytes in the line (binary noise or a wrong baud rate?)"
+		}
+	}
+	if !utf8.ValidString(t) {
+		return "bytes that are not text (binary noise or a wrong baud rate?)"
+	}
+	return ""
 }

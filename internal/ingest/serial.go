@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io/fs"
+	"math/bits"
 	"path/filepath"
 	"sort"
 	"strings"
@@ -104,7 +105,12 @@ type lineState struct {
 	lines       int // non-blank lines seen
 	unparseable int
 	hinted      bool
+	recent      uint32 // the last 32 lines: bit set for a line that was noise
 }
+
+// noisy is true when at least half of the last 32 lines were noise: a
+// number that turns up amid noise is more likely noise than a mass.
+func (st *lineState) noisy() bool { return bits.OnesCount32(st.recent) >= 16 }
 
 // readPort reads one opened port until it fails or ctx ends; it returns why
 // it stopped.
@@ -180,6 +186,7 @@ func (s *Serial) readPort(ctx context.Context, port serial.Port, st *lineState, 
 // add parses one line and appends its event (if any) to batch.
 func (st *lineState) add(batch []Event, t time.Time, raw string, cut bool) []Event {
 	if cut {
+		st.recent = st.recent<<1 | 1
 		batch = append(batch, Event{T: t, Kind: KindLineCut, Raw: clipRaw(raw),
 			Detail: fmt.Sprintf("line longer than %d bytes cut (no line ends: wrong baud rate or data bits?)", MaxLineBytes)})
 		return batch
@@ -189,8 +196,13 @@ func (st *lineState) add(batch []Event, t time.Time, raw string, cut bool) []Eve
 		return batch
 	}
 	st.lines++
+	if l.Kind == LineReading && st.noisy() {
+		l = Line{Kind: LineUnparseable, Reason: "a number amid noise: not taken as a reading"}
+	}
+	st.recent <<= 1
 	if l.Kind == LineUnparseable {
 		st.unparseable++
+		st.recent |= 1
 	}
 	batch = append(batch, FromLine(t, raw, l))
 	if !st.hinted && st.lines >= unparseableHint && st.unparseable == st.lines {

@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"context"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"strings"
@@ -223,5 +224,49 @@ func TestParseEscapes(t *testing.T) {
 		if (err != nil) != tc.bad || string(got) != tc.want {
 			t.Errorf("ParseEscapes(%q) = %q, %v", tc.in, got, err)
 		}
+	}
+}
+
+// Issue 9, case 9: 100 KB of random bytes on a real pseudo-terminal (a
+// loose cable, another device on the port) make no reading: noise is
+// counted as unparseable, never read as a mass.
+func TestSerialRandomNoiseIsNoReading(t *testing.T) {
+	rng := rand.New(rand.NewPCG(9, 9))
+	noise := make([]byte, 100_000)
+	for i := range noise {
+		noise[i] = byte(rng.UintN(256))
+	}
+	const chunk = 1000
+	b := newFakeBalance(t, func(i int) string {
+		if i >= len(noise)/chunk {
+			return ""
+		}
+		return string(noise[i*chunk : (i+1)*chunk])
+	}, time.Millisecond)
+	defer b.unplug()
+	src := &Serial{Path: b.slave.Name(), Mode: serial.Mode{BaudRate: 9600}}
+	ctx, cancel := context.WithTimeout(context.Background(), 3*time.Second)
+	defer cancel()
+	out := make(chan []Event, 64)
+	go src.Run(ctx, out)
+	readings, bad := 0, 0
+	for done := false; !done; {
+		select {
+		case evs := <-out:
+			for _, e := range evs {
+				switch e.Kind {
+				case KindReading:
+					readings++
+					t.Errorf("noise read as %v g from %q", e.MassG, e.Raw)
+				case KindUnparseable, KindLineCut:
+					bad++
+				}
+			}
+		case <-ctx.Done():
+			done = true
+		}
+	}
+	if readings != 0 || bad < 100 {
+		t.Errorf("100 KB of noise: %d readings, %d lines counted unparseable", readings, bad)
 	}
 }
