@@ -371,3 +371,25 @@ func TestReferenceRunShown(t *testing.T) {
 		t.Errorf("the reference course is not drawn:\n%s", v)
 	}
 }
+
+// Issue 9, case 7: a note holding terminal escape sequences (written by any
+// process into the log) is shown as text; its bytes never reach the screen.
+func TestNoteEscapesShownAsText(t *testing.T) {
+	m := newTestModel(&memSink{}, start.Add(time.Hour))
+	m = step(t, m, tea.WindowSizeMsg{Width: 100, Height: 30})
+	evs := simEvents(t, 0.5)
+	for _, text := range []string{"\x1b]0;owned\x07", "\x1b[2J", "\x1b]8;;http://x\x1b\\link"} {
+		ev := session.Event{Type: session.TypeNote, T: start.Add(10 * time.Minute), Kind: "note", Text: text}
+		evs = append(evs, ingest.Event{T: ev.T, Kind: ingest.KindNote, Note: &ev})
+	}
+	m = step(t, m, eventsMsg(evs))
+	v := m.View()
+	for _, bad := range []string{"\x07", "\x1b]", "\x1b[2J"} {
+		if strings.Contains(v, bad) {
+			t.Errorf("the screen carries %q from a note", bad)
+		}
+	}
+	if !strings.Contains(plain(v), `\x1b[2J`) {
+		t.Errorf("the note is not shown as text:\n%s", plain(v))
+	}
+}

@@ -10,6 +10,8 @@ import (
 	"github.com/charmbracelet/lipgloss"
 
 	"parch/internal/kinetics"
+
+	"parch/internal/safetext"
 )
 
 // Minimum terminal size for the full layout.
@@ -107,7 +109,7 @@ func (m *Model) header(w int) string {
 	if m.res != nil {
 		rej = m.res.Rejected
 	}
-	left := m.styles.Title.Render("parch") + "  " + m.opt.Title
+	left := m.styles.Title.Render("parch") + "  " + safetext.Terminal(m.opt.Title)
 	right := fmt.Sprintf("%s  %d readings  %d rejected", src, len(m.th), rej)
 	if m.problems > 0 {
 		right += fmt.Sprintf("  %d problem lines", m.problems)
@@ -128,9 +130,9 @@ func (m *Model) alerts(w int) string {
 	}
 	switch m.state {
 	case stateLost:
-		a = append(a, "! SOURCE LOST since "+m.stateSince.Local().Format("15:04")+": "+m.stateDetail)
+		a = append(a, "! SOURCE LOST since "+m.stateSince.Local().Format("15:04")+": "+safetext.Terminal(m.stateDetail))
 	case stateStalled:
-		a = append(a, "! STALLED: "+m.stateDetail)
+		a = append(a, "! STALLED: "+safetext.Terminal(m.stateDetail))
 	}
 	if m.livePt.Period == kinetics.PeriodSteady || m.lastGood.Period == kinetics.PeriodSteady {
 		a = append(a, "= STEADY WEIGHT: end of run?")
@@ -313,6 +315,7 @@ func (m *Model) notesPane(w, h int) []string {
 
 // noteLabel is how a note reads on screen.
 func noteLabel(kind, text string, value float64) string {
+	kind, text = safetext.Terminal(kind), safetext.Terminal(text)
 	label := strings.ReplaceAll(kind, "_", " ")
 	for _, t := range tags {
 		if t.kind == kind && kind != kindNote {
@@ -354,7 +357,7 @@ func (m *Model) bottomLines(w int) []string {
 	case m.errMsg != "":
 		line = m.styles.Error.Render("! " + m.errMsg)
 	case m.flash != "":
-		line = m.styles.Good.Render(m.flash)
+		line = m.styles.Good.Render(safetext.Terminal(m.flash))
 	case m.mode == modeSetup && m.form.err != "":
 		line = m.styles.Error.Render("! " + m.form.err)
 	}

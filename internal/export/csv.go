@@ -9,6 +9,8 @@ import (
 	"time"
 
 	"parch/internal/kinetics"
+
+	"parch/internal/safetext"
 )
 
 // ReadingsHeader is the fixed part of readings.csv's header; flux appears
@@ -79,7 +81,7 @@ func Notes(w io.Writer, b *Bundle) error {
 	cw := csv.NewWriter(w)
 	cw.Write([]string{"elapsed_h", "time", "kind", "text", "value"})
 	for _, n := range b.Run.Notes {
-		cw.Write([]string{num(n.ElapsedH, 6), n.T.UTC().Format("2006-01-02T15:04:05.000Z07:00"), n.Kind, n.Text, num(n.Value, 6)})
+		cw.Write([]string{num(n.ElapsedH, 6), n.T.UTC().Format("2006-01-02T15:04:05.000Z07:00"), safetext.Cell(n.Kind), safetext.Cell(n.Text), num(n.Value, 6)})
 	}
 	cw.Flush()
 	return cw.Error()

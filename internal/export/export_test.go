@@ -7,6 +7,7 @@ import (
 	"encoding/xml"
 	"errors"
 	"flag"
+	"fmt"
 	"image/png"
 	"io"
 	"math"
@@ -220,5 +221,37 @@ func TestNewDryMassChangesOnlyDerived(t *testing.T) {
 	}
 	if !changed["moisture_db"] || !changed["moisture_wb_pct"] {
 		t.Errorf("moisture did not change with the dry mass: %v", changed)
+	}
+}
+
+// Issue 9, case 7 and 12: escape sequences in a note reach no report file
+// raw, and a note that looks like a formula stays text in notes.csv.
+func TestNotesAreMadeSafe(t *testing.T) {
+	log := smallLog(t)
+	f, err := os.OpenFile(log, os.O_WRONLY|os.O_APPEND, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, text := range []string{"\x1b]0;title\x07", "\x1b[2J", "\x1b]8;;http://x\x1b\\\\link\x1b]8;;\x1b\\\\", "=HYPERLINK(\\\"http://x\\\")"} {
+		fmt.Fprintf(f, `{"type":"note","t":"2026-12-02T12:00:00.000Z","kind":"note","text":"%s"}`+"\n", strings.ReplaceAll(text, "\x1b", `\u001b`))
+	}
+	f.Close()
+	b := bundle(t, log, nil)
+	dir := filepath.Join(t.TempDir(), "out")
+	if err := export.Write(dir, false, b, nil); err != nil {
+		t.Fatal(err)
+	}
+	for _, name := range []string{export.FileNotes, export.FileReport} {
+		data, _ := os.ReadFile(filepath.Join(dir, name))
+		if bytes.ContainsAny(data, "\x1b\x07") {
+			t.Errorf("%s holds a raw escape byte", name)
+		}
+		if !bytes.Contains(data, []byte(`\x1b[2J`)) {
+			t.Errorf("%s does not show the escape as text", name)
+		}
+	}
+	notes, _ := os.ReadFile(filepath.Join(dir, export.FileNotes))
+	if !bytes.Contains(notes, []byte(`'=HYPERLINK`)) {
+		t.Errorf("a formula in notes.csv is not quoted:\n%s", notes)
 	}
 }

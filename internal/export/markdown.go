@@ -11,6 +11,8 @@ import (
 
 	"parch/internal/kinetics"
 	"parch/internal/report"
+
+	"parch/internal/safetext"
 )
 
 // Markdown writes report.md: the run in words, tables and pictures, for a
@@ -158,7 +160,7 @@ func Markdown(w io.Writer, b *Bundle) error {
 	} else {
 		p("| elapsed (h) | time (UTC) | kind | text | value |\n| --- | --- | --- | --- | --- |\n")
 		for _, n := range b.Run.Notes {
-			p("| %s | %s | %s | %s | %s |\n", v(n.ElapsedH, "%.2f"), n.T.UTC().Format("2006-01-02 15:04:05"), strings.ReplaceAll(n.Kind, "_", " "), mdEscape(n.Text), v(n.Value, "%g"))
+			p("| %s | %s | %s | %s | %s |\n", v(n.ElapsedH, "%.2f"), n.T.UTC().Format("2006-01-02 15:04:05"), mdEscape(strings.ReplaceAll(n.Kind, "_", " ")), mdEscape(n.Text), v(n.Value, "%g"))
 		}
 	}
 	if len(sum.SuspectedRemovals) > 0 {
@@ -216,7 +218,7 @@ func faces(f int) string {
 }
 
 func mdEscape(s string) string {
-	return strings.NewReplacer("|", "\\|", "\n", " ").Replace(s)
+	return strings.NewReplacer("|", "\\|", `\n`, " ").Replace(safetext.Terminal(s))
 }
 
 // writeProjection writes the projection, the methods behind it and how the

@@ -11,6 +11,8 @@ import (
 	"time"
 
 	"parch/internal/kinetics"
+
+	"parch/internal/safetext"
 )
 
 // Num is a number that is written as null when it is NaN or infinite.
@@ -423,13 +425,13 @@ func WriteText(w io.Writer, s Summary) error {
 	if len(s.Notes) > 0 {
 		p("\nNotes\n")
 		for _, n := range s.Notes {
-			p("  %8s  %-18s %s\n", v(n.ElapsedH, "%.2f", " h"), n.Kind, truncateNote(n.Text, 60))
+			p("  %8s  %-18s %s\n", v(n.ElapsedH, "%.2f", " h"), safetext.Terminal(n.Kind), truncateNote(safetext.Terminal(n.Text), 60))
 		}
 	}
 	if len(s.Warnings) > 0 {
 		p("\nWarnings\n")
 		for _, w := range s.Warnings {
-			p("  - %s\n", w)
+			p("  - %s\n", safetext.Terminal(w))
 		}
 	}
 	p("\nCautions\n")
