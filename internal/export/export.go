@@ -72,16 +72,30 @@ func Write(dir string, force bool, b *Bundle, progress func(string)) error {
 	return Plots(dir, b)
 }
 
+// writeFile writes a new file in its folder and renames it into place, so
+// that a link planted at path is replaced, never written through (with
+// --force a file outside the folder would otherwise be overwritten).
 func writeFile(path string, fn func(io.Writer) error) error {
-	f, err := os.Create(path)
+	f, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+"-*")
 	if err != nil {
 		return err
 	}
-	if err := fn(f); err != nil {
-		f.Close()
+	tmp := f.Name()
+	err = fn(f)
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	if err == nil {
+		err = os.Chmod(tmp, 0o644)
+	}
+	if err == nil {
+		err = os.Rename(tmp, path)
+	}
+	if err != nil {
+		os.Remove(tmp)
 		return fmt.Errorf("%s: %w", path, err)
 	}
-	return f.Close()
+	return nil
 }
 
 // SummaryJSON is summary.json: the `parch report --format json` object plus

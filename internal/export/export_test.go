@@ -255,3 +255,36 @@ func TestNotesAreMadeSafe(t *testing.T) {
 		t.Errorf("a formula in notes.csv is not quoted:\n%s", notes)
 	}
 }
+
+// Issue 9, case 8: --force replaces links planted in the folder; it never
+// writes through them to a file outside, and a dangling link creates
+// nothing outside.
+func TestForceReplacesLinks(t *testing.T) {
+	b := bundle(t, smallLog(t), nil)
+	root := t.TempDir()
+	dir := filepath.Join(root, "out")
+	os.MkdirAll(dir, 0o755)
+	victim := filepath.Join(root, "precious.txt")
+	os.WriteFile(victim, []byte("keep me"), 0o644)
+	os.Symlink(victim, filepath.Join(dir, export.FileReadings))
+	os.Symlink(victim, filepath.Join(dir, export.PlotMoisture+".png"))
+	dangling := filepath.Join(root, "created-outside")
+	os.Symlink(dangling, filepath.Join(dir, export.FileNotes))
+	if err := export.Write(dir, true, b, nil); err != nil {
+		t.Fatal(err)
+	}
+	if got, _ := os.ReadFile(victim); string(got) != "keep me" {
+		t.Errorf("a file outside the folder was overwritten through a link: %q", got)
+	}
+	if _, err := os.Lstat(dangling); err == nil {
+		t.Errorf("a dangling link created a file outside the folder")
+	}
+	for _, name := range []string{export.FileReadings, export.FileNotes, export.PlotMoisture + ".png"} {
+		if st, err := os.Lstat(filepath.Join(dir, name)); err != nil || !st.Mode().IsRegular() {
+			t.Errorf("%s is not a plain file now: %v", name, err)
+		}
+	}
+	if left, _ := filepath.Glob(filepath.Join(dir, ".*")); len(left) > 0 {
+		t.Errorf("temporary files left: %v", left)
+	}
+}

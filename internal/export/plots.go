@@ -60,7 +60,11 @@ func Plots(dir string, b *Bundle) error {
 			continue
 		}
 		for _, ext := range []string{".svg", ".png"} {
-			if err := p.Save(plotW, plotH, filepath.Join(dir, j.name+ext)); err != nil {
+			wt, err := p.WriterTo(plotW, plotH, ext[1:])
+			if err == nil {
+				err = writeFile(filepath.Join(dir, j.name+ext), func(w io.Writer) error { _, err := wt.WriteTo(w); return err })
+			}
+			if err != nil {
 				return fmt.Errorf("plot %s: %w", j.name, err)
 			}
 		}
