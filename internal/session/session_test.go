@@ -303,3 +303,35 @@ func BenchmarkAppend(b *testing.B) {
 		w.Append(&e)
 	}
 }
+
+// Issue 9, case 3: a note appended after a torn last line stands on its own
+// line (it was glued to the fragment and lost while `parch note` said
+// "noted"); and a recorder writing after another process's torn line loses
+// no reading.
+func TestAppendAfterTornLine(t *testing.T) {
+	path, w := newLog(t)
+	w.Append(&Event{Type: TypeReading, T: t0, MassG: 100})
+	// Another process tears a line while the recorder runs.
+	f, _ := os.OpenFile(path, os.O_WRONLY|os.O_APPEND, 0)
+	f.WriteString(`{"type":"note","t":"2026-12-02T08:00:01.000Z","kind":"no`)
+	f.Close()
+	if err := w.Append(&Event{Type: TypeReading, T: t0.Add(2 * time.Second), MassG: 99}); err != nil {
+		t.Fatal(err)
+	}
+	w.Append(&Event{Type: TypeReading, T: t0.Add(3 * time.Second), MassG: 98})
+	w.Close()
+	// A one-shot note after a torn last line.
+	f, _ = os.OpenFile(path, os.O_WRONLY|os.O_APPEND, 0)
+	f.WriteString(`{"type":"reading","t":"2026-12-02T08:00:04.000Z","mass_g":9`)
+	f.Close()
+	if err := AppendOnce(path, &Event{Type: TypeNote, T: t0.Add(5 * time.Second), Kind: "bend_test_passed"}); err != nil {
+		t.Fatal(err)
+	}
+	l, err := Load(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if l.Readings.Len() != 3 || len(l.Notes) != 1 || l.Notes[0].Kind != "bend_test_passed" || l.Skipped != 2 {
+		t.Errorf("%d readings (want 3), notes %+v (want the bend test), %d torn lines skipped (want 2)", l.Readings.Len(), l.Notes, l.Skipped)
+	}
+}

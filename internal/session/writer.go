@@ -34,6 +34,7 @@ type Writer struct {
 	err  error // sticky: after a failed write nothing more is written
 	// written counts lines written by this Writer.
 	written int
+	end     int64 // the file's size after this Writer's last write
 	dirty   bool
 	done    chan struct{}
 	wg      sync.WaitGroup
@@ -42,7 +43,7 @@ type Writer struct {
 // Create makes a new session log at path and writes its header. It never
 // overwrites: an existing file is an error (use Open to append to it).
 func Create(path, program string, now time.Time) (*Writer, error) {
-	f, err := os.OpenFile(path, os.O_WRONLY|os.O_APPEND|os.O_CREATE|os.O_EXCL, 0o644)
+	f, err := os.OpenFile(path, os.O_RDWR|os.O_APPEND|os.O_CREATE|os.O_EXCL, 0o644)
 	if err != nil {
 		if errors.Is(err, fs.ErrExist) {
 			return nil, fmt.Errorf("session log %s already exists; parch never overwrites a log (give another --session, or open it to append)", path)
@@ -72,22 +73,11 @@ func Open(path, program string, now time.Time) (*Writer, error) {
 	if err := CheckHeader(path); err != nil {
 		return nil, err
 	}
-	f, err := os.OpenFile(path, os.O_WRONLY|os.O_APPEND, 0)
+	f, err := os.OpenFile(path, os.O_RDWR|os.O_APPEND, 0)
 	if err != nil {
 		return nil, fmt.Errorf("open session log: %w", err)
 	}
 	w := newWriter(path, f)
-	torn, err := endsTorn(path)
-	if err != nil {
-		w.Close()
-		return nil, err
-	}
-	if torn {
-		if _, err := f.Write([]byte{'\n'}); err != nil {
-			w.Close()
-			return nil, fmt.Errorf("session log %s: %w", path, err)
-		}
-	}
 	ev := Event{Type: TypeSource, T: now, Event: SourceReopened,
 		Detail: "log reopened by " + program + "; readings between the last line above and this one were not recorded"}
 	if err := w.Append(&ev); err != nil {
@@ -135,15 +125,23 @@ func (w *Writer) Append(e *Event) error {
 	if w.f == nil {
 		return fmt.Errorf("session log %s: closed", w.path)
 	}
-	b, err := AppendJSON(w.buf[:0], e)
+	// A line left torn by another writer (a crash, a full disk) is closed
+	// first, so this event is not glued to it and lost.
+	size, torn := tail(w.f, w.end)
+	w.buf = append(w.buf[:0], '\n')
+	b, err := AppendJSON(w.buf, e)
 	if err != nil {
 		return err
 	}
 	w.buf = b
+	if !torn {
+		b = b[1:]
+	}
 	if _, err := w.f.Write(b); err != nil {
 		w.err = w.wrap(err)
 		return w.err
 	}
+	w.end = size + int64(len(b))
 	w.written++
 	w.dirty = true
 	return nil
@@ -231,9 +229,12 @@ func AppendOnce(path string, e *Event) error {
 	if err != nil {
 		return err
 	}
-	f, err := os.OpenFile(path, os.O_WRONLY|os.O_APPEND, 0)
+	f, err := os.OpenFile(path, os.O_RDWR|os.O_APPEND, 0)
 	if err != nil {
 		return fmt.Errorf("open session log: %w", err)
+	}
+	if _, torn := tail(f, -1); torn {
+		b = append([]byte{'\n'}, b...) // close a torn last line: the note must stand on its own
 	}
 	if _, err := f.Write(b); err != nil {
 		f.Close()
@@ -282,21 +283,22 @@ func CheckHeaderLine(path string, line []byte) error {
 	return nil
 }
 
-func endsTorn(path string) (bool, error) {
-	f, err := os.Open(path)
-	if err != nil {
-		return false, fmt.Errorf("open session log: %w", err)
-	}
-	defer f.Close()
+// tail returns the file's size and whether its last line is torn (does not
+// end with a newline). known is the size this process left it at: when the
+// file is still that size nobody else wrote, and nothing is read.
+func tail(f *os.File, known int64) (int64, bool) {
 	st, err := f.Stat()
 	if err != nil || st.Size() == 0 {
-		return false, err
+		return 0, false
+	}
+	if st.Size() == known {
+		return known, false
 	}
 	var last [1]byte
 	if _, err := f.ReadAt(last[:], st.Size()-1); err != nil {
-		return false, fmt.Errorf("read session log %s: %w", path, err)
+		return st.Size(), false
 	}
-	return last[0] != '\n', nil
+	return st.Size(), last[0] != '\n'
 }
 
 func clip(s string, n int) string {
