@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"fmt"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -171,6 +172,13 @@ func TestCommandLineErrors(t *testing.T) {
 		{"note bad kind", []string{"note", "--session", "z.jsonl", "--kind", "Bend Test", "x"}, 2, "--kind"},
 		{"note to missing log", []string{"note", "--session", "z.jsonl", "hello"}, 1, "z.jsonl"},
 		{"bad flag", []string{"demo", "--sped", "3"}, 2, "sped"},
+		// Issue 9, case 11: bad setup values never enter a log.
+		{"moisture over 100", []string{"record", "--demo", "--session", "w.jsonl", "--initial-moisture", "150"}, 2, "initial moisture"},
+		{"target over initial", []string{"record", "--demo", "--session", "w.jsonl", "--initial-moisture", "80", "--target", "90"}, 2, "not below the initial moisture"},
+		{"negative tare", []string{"record", "--demo", "--session", "w.jsonl", "--tare", "-5"}, 2, "tare"},
+		{"tiny steady window", []string{"record", "--demo", "--session", "w.jsonl", "--steady-window", "1e-300"}, 2, "steady window"},
+		{"unknown kind", []string{"note", "--session", "z.jsonl", "--kind", "bogus", "x"}, 2, "expected one of"},
+		{"value with letters", []string{"note", "--session", "z.jsonl", "--kind", "piece_removed", "--value", "4.2abc"}, 2, "expected a number"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -181,7 +189,7 @@ func TestCommandLineErrors(t *testing.T) {
 		})
 	}
 	// A source that never started leaves no log behind.
-	for _, f := range []string{"x.jsonl", "y.jsonl"} {
+	for _, f := range []string{"x.jsonl", "y.jsonl", "w.jsonl"} {
 		if _, err := os.Stat(filepath.Join(dir, f)); err == nil {
 			t.Errorf("%s was left behind by a source that never started", f)
 		}
@@ -283,5 +291,44 @@ func TestSetupIntoTheLog(t *testing.T) {
 	p := l.SetupParams()
 	if p["initial_moisture_wb_pct"] != 86.5 || p["target_moisture_wb_pct"] != 18 || p["dry_mass_g"] != 26.5 {
 		t.Fatalf("setup in the log: %v", p)
+	}
+}
+
+// Issue 9, case 11: note --set is checked against what the log holds and a
+// bad value is refused with nothing written; --unset takes a value back; a
+// bad value already in a log is named as the log's, with the way to fix it.
+func TestSetupValuesChecked(t *testing.T) {
+	dir := t.TempDir()
+	log := filepath.Join(dir, "s.jsonl")
+	if _, stderr, code := parch(t, dir, "record", "--demo", "--speed", "0", "--session", log, "--status", "0", "--initial-moisture", "86.5"); code != 0 {
+		t.Fatal(stderr)
+	}
+	before, _ := os.ReadFile(log)
+	if _, stderr, code := parch(t, dir, "note", "--session", log, "--set", "dry_mass_g=-5"); code != 2 || !strings.Contains(stderr, "dry mass") {
+		t.Errorf("--set dry_mass_g=-5: exit %d, %q", code, stderr)
+	}
+	if after, _ := os.ReadFile(log); len(after) != len(before) {
+		t.Error("a refused value was written to the log")
+	}
+	if _, stderr, code := parch(t, dir, "note", "--session", log, "--set", "target_moisture_wb_pct=95"); code != 2 || !strings.Contains(stderr, "not below") {
+		t.Errorf("a target above the log's initial moisture: exit %d, %q", code, stderr)
+	}
+	if _, stderr, code := parch(t, dir, "note", "--session", log, "--set", "dry_mass_g=30"); code != 0 {
+		t.Fatal(stderr)
+	}
+	if _, stderr, code := parch(t, dir, "note", "--session", log, "--unset", "dry_mass_g"); code != 0 {
+		t.Fatal(stderr)
+	}
+	m := reportJSON(t, dir, log)
+	if d := num(t, m, "dry_mass_g"); math.Abs(d-27) > 0.05 {
+		t.Errorf("after --unset the dry mass comes from the initial moisture again: %v g", d)
+	}
+	// A bad value written into the log by something else.
+	f, _ := os.OpenFile(log, os.O_WRONLY|os.O_APPEND, 0)
+	f.WriteString(`{"type":"setup","t":"2030-01-01T00:00:00.000Z","tare_g":-5}` + "\n")
+	f.Close()
+	_, stderr, code := parch(t, dir, "report", log)
+	if code != 1 || !strings.Contains(stderr, "setup recorded in") || !strings.Contains(stderr, "--unset") || strings.Contains(stderr, "report -h") {
+		t.Errorf("a bad value in the log: exit %d, %q", code, stderr)
 	}
 }

@@ -4,17 +4,17 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"regexp"
 	"strconv"
 	"strings"
 	"time"
 
+	"parch/internal/kinetics"
 	"parch/internal/report"
 	"parch/internal/session"
 )
 
-// noteKinds are the checks of the trade, offered first; any other kind in
-// lower case with underscores is accepted too.
+// noteKinds are the kinds a note can have: the checks of the trade, and
+// free text.
 var noteKinds = []struct{ kind, help string }{
 	{"note", "free text"},
 	{"bend_test_passed", "a piece bends without breaking and shows no free moisture"},
@@ -24,8 +24,6 @@ var noteKinds = []struct{ kind, help string }{
 	{"door_opened", "the dryer door was opened"},
 	{"setpoint_changed", "the air temperature setpoint changed (new value with --value, °C)"},
 }
-
-var kindPattern = regexp.MustCompile(`^[a-z][a-z0-9_]*$`)
 
 // setupKeys are the run parameters a session log's setup lines carry.
 var setupKeys = []string{report.KeyInitialMoistureWB, report.KeyDryMass, report.KeyTare, report.KeyInitialMass,
@@ -70,6 +68,8 @@ func runNote(args []string, stdout, stderr io.Writer) error {
 	path := fs.String("session", "", "session log `FILE` to add the note to (required)")
 	kind := fs.String("kind", "note", "what kind of note (see the list above)")
 	value := fs.String("value", "", "a number that goes with the note: grams removed, new setpoint °C...")
+	var unset unsetKeys
+	fs.Var(&unset, "unset", "remove a run parameter recorded earlier, `KEY` (repeatable): the analysis goes back to the default or the flags")
 	var sets setValues
 	fs.Var(&sets, "set", "record a run parameter instead, `KEY=VALUE` (repeatable), e.g. dry_mass_g=27.1 the day after; keys: "+strings.Join(setupKeys, ", "))
 	pos, err := parseFlags(fs, args)
@@ -79,29 +79,52 @@ func runNote(args []string, stdout, stderr io.Writer) error {
 	if *path == "" {
 		return usagef("--session FILE is required: the session log being recorded")
 	}
-	if len(sets) > 0 {
+	if len(sets) > 0 || len(unset) > 0 {
 		if len(pos) > 0 || *value != "" {
-			return usagef("--set records run parameters; give a note without --set")
+			return usagef("--set and --unset record run parameters; give a note without them")
 		}
+		log, err := session.Load(*path)
+		if err != nil {
+			return err
+		}
+		// The values as they will stand, checked before anything is written.
+		merged := log.SetupParams()
 		e := session.Event{Type: session.TypeSetup, T: time.Now(), Params: map[string]any{}}
+		for _, k := range unset {
+			delete(merged, k)
+			e.Params[k] = nil
+		}
 		for k, v := range sets {
+			merged[k] = v
 			e.Params[k] = v
+		}
+		setup := kinetics.NewSetup()
+		report.ApplyParams(&setup, merged)
+		if err := setup.Validate(); err != nil {
+			return usagef("%v (nothing recorded)", err)
 		}
 		if err := session.AppendOnce(*path, &e); err != nil {
 			return err
 		}
-		fmt.Fprintf(stdout, "recorded %d setup value(s) in %s\n", len(sets), *path)
+		fmt.Fprintf(stdout, "recorded %d setup value(s) in %s\n", len(e.Params), *path)
 		return nil
 	}
-	if !kindPattern.MatchString(*kind) {
-		return usagef("--kind %q: expected lower-case words joined by underscores, e.g. bend_test_passed", *kind)
+	if !knownKind(*kind) {
+		var names []string
+		for _, k := range noteKinds {
+			names = append(names, k.kind)
+		}
+		return usagef("--kind %q: expected one of %s", *kind, strings.Join(names, ", "))
 	}
 	text := strings.TrimSpace(strings.Join(pos, " "))
 	e := session.Event{Type: session.TypeNote, T: time.Now(), Kind: *kind, Text: text}
 	if *value != "" {
-		var v float64
-		if _, err := fmt.Sscanf(*value, "%g", &v); err != nil {
-			return usagef("--value %q: expected a number", *value)
+		v, err := strconv.ParseFloat(strings.TrimSpace(*value), 64)
+		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) || math.Abs(v) > 1e9 {
+			return usagef("--value %q: expected a number, like 4.2", *value)
+		}
+		if *kind == "piece_removed" && !(v > 0) {
+			return usagef("--value %q: the grams removed must be above 0", *value)
 		}
 		e.Value = &v
 	}
@@ -123,4 +146,29 @@ func runNote(args []string, stdout, stderr io.Writer) error {
 	}
 	fmt.Fprintf(stdout, "noted %s in %s (%s)\n", *kind, *path, when)
 	return nil
+}
+
+func knownKind(k string) bool {
+	for _, nk := range noteKinds {
+		if nk.kind == k {
+			return true
+		}
+	}
+	return false
+}
+
+// unsetKeys collects --unset KEY.
+type unsetKeys []string
+
+func (u *unsetKeys) String() string { return strings.Join(*u, ",") }
+
+func (u *unsetKeys) Set(k string) error {
+	k = strings.TrimSpace(k)
+	for _, sk := range setupKeys {
+		if sk == k {
+			*u = append(*u, k)
+			return nil
+		}
+	}
+	return fmt.Errorf("unknown key %q; keys: %s", k, strings.Join(setupKeys, ", "))
 }

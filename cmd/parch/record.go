@@ -33,6 +33,13 @@ func runRecord(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
+	base := map[string]float64{}
+	if l, err := session.Load(src.session); err == nil && src.session != "" {
+		base = l.SetupParams()
+	}
+	if err := sf.check(base); err != nil {
+		return err
+	}
 	src.setup = params
 	if src.reference, err = sf.referenceToRecord(); err != nil {
 		return err

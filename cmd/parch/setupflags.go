@@ -173,6 +173,9 @@ func (sf *setupFlags) untilH() (float64, error) {
 func (sf *setupFlags) build(run *report.Run) (kinetics.Setup, error) {
 	setup := kinetics.NewSetup()
 	report.ApplyParams(&setup, run.Params)
+	if err := setup.Validate(); err != nil && run.Format == "session" {
+		return setup, fmt.Errorf("the setup recorded in %s: %v; correct it with parch note --session %s --set KEY=VALUE (or --unset KEY), or override it with a flag", run.Path, err, run.Path)
+	}
 	p, err := sf.params()
 	if err != nil {
 		return setup, err
@@ -183,4 +186,20 @@ func (sf *setupFlags) build(run *report.Run) (kinetics.Setup, error) {
 		return setup, usagef("%v", err)
 	}
 	return setup, nil
+}
+
+// check validates the setup flags over the values a log already holds
+// (base), before anything is recorded: a bad value never enters the log.
+func (sf *setupFlags) check(base map[string]float64) error {
+	p, err := sf.params()
+	if err != nil {
+		return err
+	}
+	setup := kinetics.NewSetup()
+	report.ApplyParams(&setup, base)
+	report.ApplyParams(&setup, p)
+	if err := setup.Validate(); err != nil {
+		return usagef("%v", err)
+	}
+	return nil
 }

@@ -85,6 +85,20 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 	if err != nil {
 		return err
 	}
+	base := map[string]float64{}
+	for k, v := range sf.defaults {
+		base[k] = v
+	}
+	if src.session != "" {
+		if l, err := session.Load(src.session); err == nil {
+			for k, v := range l.SetupParams() {
+				base[k] = v
+			}
+		}
+	}
+	if err := sf.check(base); err != nil {
+		return err
+	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
 

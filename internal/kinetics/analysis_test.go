@@ -120,8 +120,11 @@ func TestBadInputs(t *testing.T) {
 	big.DryMassG = 500
 	big.TargetWBPct = 18
 	passed := NewSetup()
-	passed.InitialMoistureWB = 86
-	passed.TargetWBPct = 95
+	passed.DryMassG = 10 // 95 % moisture at 200 g: the 18 % target is far below, 97 % above
+	passed.TargetWBPct = 97
+	equalSetup := NewSetup()
+	equalSetup.InitialMoistureWB = 86
+	equalSetup.TargetWBPct = 18
 	tests := []struct {
 		name  string
 		s     Series
@@ -129,7 +132,7 @@ func TestBadInputs(t *testing.T) {
 		warn  string
 	}{
 		{"one reading", one, NewSetup(), "too few"},
-		{"all equal", equal, passed, ""},
+		{"all equal", equal, equalSetup, ""},
 		{"negative masses", neg, NewSetup(), "no usable readings"},
 		{"dry mass larger than sample", crankRun(200, 0.05), big, "not less than the initial mass"},
 		{"target already passed", crankRun(200, 0.05), passed, "reached at the start"},
@@ -152,5 +155,17 @@ func TestBadInputs(t *testing.T) {
 	bad.InitialMoistureWB = 120
 	if _, err := Analyze(one, bad, Options{}); err == nil || !strings.Contains(err.Error(), "initial moisture") {
 		t.Errorf("moisture 120 %%: %v", err)
+	}
+	// Issue 9, case 11: a target above the initial moisture is refused.
+	bad = NewSetup()
+	bad.InitialMoistureWB, bad.TargetWBPct = 80, 90
+	if _, err := Analyze(one, bad, Options{}); err == nil || !strings.Contains(err.Error(), "not below the initial moisture") {
+		t.Errorf("target 90 %% over 80 %%: %v", err)
+	}
+	// Issue 9, case 4: a steady window too small to mean anything.
+	bad = NewSetup()
+	bad.SteadyWindowH = 1e-300
+	if _, err := Analyze(one, bad, Options{}); err == nil || !strings.Contains(err.Error(), "steady window") {
+		t.Errorf("steady window 1e-300 h: %v", err)
 	}
 }

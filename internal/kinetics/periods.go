@@ -140,8 +140,15 @@ func steadyAt(t, m []float64, keep []bool, breaks []float64, windowH, pct float6
 	if len(tt) < 10 || tt[len(tt)-1]-tt[0] < windowH {
 		return math.NaN()
 	}
-	step := windowH / 10
-	for end := tt[0] + windowH; end <= tt[len(tt)-1]+1e-9; end += step {
+	// Counted steps, at most 100 000 over the run: a step too small to move
+	// the end (a window of 1e-300 h) cannot make this loop for ever.
+	span := tt[len(tt)-1] - tt[0]
+	step := math.Max(windowH/10, span/1e5)
+	for k := 0; ; k++ {
+		end := tt[0] + windowH + float64(k)*step
+		if end > tt[len(tt)-1]+1e-9 {
+			break
+		}
 		lo := sort.SearchFloat64s(tt, end-windowH)
 		hi := sort.SearchFloat64s(tt, end+1e-12)
 		if hi-lo < 5 || crosses(breaks, end-windowH, end) {

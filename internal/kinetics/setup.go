@@ -59,15 +59,22 @@ func (s Setup) Validate() error {
 		{"tray area (m²)", s.AreaM2, 0, math.Inf(1), true},
 		{"thickness (mm)", s.ThicknessMM, 0, math.Inf(1), true},
 		{"steady tolerance (%)", s.SteadyPct, 0, 100, true},
-		{"steady window (h)", s.SteadyWindowH, 0, math.Inf(1), true},
+		{"steady window (h)", s.SteadyWindowH, 1.0 / 60, 1000, false},
+		{"tare (g)", s.TareG, 0, math.Inf(1), false},
 	}
 	for _, c := range checks {
 		if math.IsNaN(c.v) {
 			continue
 		}
 		if math.IsInf(c.v, 0) || c.v < c.lo || c.v > c.hi || c.open && (c.v == c.lo || c.v == c.hi) {
-			return fmt.Errorf("%s = %v is out of range", c.name, c.v)
+			return fmt.Errorf("%s = %v is out of range: expected %s", c.name, c.v, rangeText(c.lo, c.hi, c.open))
 		}
+	}
+	if s.InitialMoistureWB < 100 && s.TargetWBPct >= s.InitialMoistureWB {
+		return fmt.Errorf("target moisture %v %% is not below the initial moisture %v %% (wet basis): nothing to dry", s.TargetWBPct, s.InitialMoistureWB)
+	}
+	if x0 := WetToDry(s.InitialMoistureWB / 100); s.TargetDB >= x0 && math.IsNaN(s.TargetWBPct) {
+		return fmt.Errorf("target moisture %v (dry basis) is not below the initial moisture %.4g (dry basis): nothing to dry", s.TargetDB, x0)
 	}
 	if s.Faces != 0 && s.Faces != 1 && s.Faces != 2 {
 		return fmt.Errorf("drying faces = %d: expected 1 (solid tray) or 2 (mesh)", s.Faces)
@@ -106,4 +113,16 @@ func (s Setup) HalfThicknessM() float64 {
 		return l
 	}
 	return l / 2
+}
+
+func rangeText(lo, hi float64, open bool) string {
+	switch {
+	case math.IsInf(hi, 1) && open:
+		return fmt.Sprintf("above %g", lo)
+	case math.IsInf(hi, 1):
+		return fmt.Sprintf("%g or more", lo)
+	case open:
+		return fmt.Sprintf("between %g and %g", lo, hi)
+	}
+	return fmt.Sprintf("from %g to %g", lo, hi)
 }

@@ -80,8 +80,11 @@ func (l *Log) SetupParams() map[string]float64 {
 	out := map[string]float64{}
 	for _, s := range l.Setups {
 		for k, v := range s.Params {
-			if f, ok := v.(float64); ok {
+			switch f := v.(type) {
+			case float64:
 				out[k] = f
+			case nil: // unset (parch note --unset KEY)
+				delete(out, k)
 			}
 		}
 	}
