@@ -7,6 +7,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"sort"
 	"strings"
 	"time"
 
@@ -108,6 +109,14 @@ func analyse(path string, opt ingest.TableOptions, sf *setupFlags, until float64
 	}
 	if err != nil {
 		return nil, err
+	}
+	if res.Readings > 0 && res.Rejected == res.Readings {
+		var why []string
+		for k, n := range res.RejectedBy {
+			why = append(why, fmt.Sprintf("%s %d", k, n))
+		}
+		sort.Strings(why)
+		return nil, fmt.Errorf("%s: none of its %d readings is usable (%s)", path, res.Readings, strings.Join(why, ", "))
 	}
 	if warning != "" {
 		res.Warnings = append(res.Warnings, warning)

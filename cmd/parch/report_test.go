@@ -160,10 +160,8 @@ func TestReportBadInputs(t *testing.T) {
 		warn string
 	}{
 		{[]string{"equal.csv", "--initial-moisture", "80", "--target", "18"}, ""},
-		{[]string{"neg.csv"}, "no usable readings"},
 		{[]string{"one.csv", "--initial-moisture", "80"}, "too few"},
 		{[]string{"equal.csv", "--dry-mass", "150", "--target", "18"}, "not less than the initial mass"},
-		{[]string{"equal.csv", "--initial-moisture", "80", "--target", "90"}, "reached at the start"},
 	} {
 		m := reportJSON(t, dir, tc.args...)
 		if tc.warn != "" {
@@ -186,6 +184,9 @@ func TestReportBadInputs(t *testing.T) {
 		{[]string{"report", "equal.csv", "--initial-moisture", "120"}, 2, "initial moisture"},
 		{[]string{"report", "equal.csv", "--removed", "6h"}, 2, "ELAPSED=GRAMS"},
 		{[]string{"report", "equal.csv", "--until", "soon"}, 2, "--until"},
+		{[]string{"report", "equal.csv", "--initial-moisture", "80", "--target", "90"}, 2, "not below the initial moisture"},
+		// Issue 9, case 12: input with no usable reading is a failure.
+		{[]string{"report", "neg.csv"}, 1, "none of its 100 readings is usable (not_positive 100)"},
 		{[]string{"report", "equal.csv", "--target", "18", "--target-db", "0.2"}, 2, "not both"},
 		{[]string{"report"}, 2, "give one"},
 	} {

@@ -307,7 +307,7 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 		}
 	}
 	if first < 0 {
-		r.warn("too few usable readings to smooth (%d)", countTrue(keep))
+		r.warn("too few usable readings to smooth: %d kept, and fewer than 5 of them between two steps or at distinct times", countTrue(keep))
 		return r, nil
 	}
 	// The initial mass is the first kept reading as read: smoothing would
