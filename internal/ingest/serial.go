@@ -1,6 +1,7 @@
 package ingest
 
 import (
+	"parch/internal/safetext"
 	"context"
 	"errors"
 	"fmt"
@@ -213,12 +214,7 @@ func (st *lineState) add(batch []Event, t time.Time, raw string, cut bool) []Eve
 	return batch
 }
 
-func clipRaw(s string) string {
-	if len(s) > 200 {
-		return s[:200]
-	}
-	return s
-}
+func clipRaw(s string) string { return safetext.Clip(s, 200) }
 
 // OpenError explains a failure to open a serial port in terms of what to do.
 func OpenError(path string, err error) error {

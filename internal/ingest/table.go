@@ -74,11 +74,11 @@ func NewTable(header string, opt TableOptions) (*Table, error) {
 	tb.comma = tb.Delim != ','
 	tb.Header = splitRow(header, tb.Delim)
 	if len(tb.Header) < 2 {
-		return nil, fmt.Errorf("header %q: expected at least a time and a mass column separated by commas, semicolons or tabs", header)
+		return nil, fmt.Errorf("header %q: expected at least a time and a mass column separated by commas, semicolons or tabs", clipRaw(header))
 	}
 	var err error
 	if tb.TimeIdx, err = pickColumn(tb.Header, opt.TimeCol, isTimeName, "time"); err != nil {
-		return nil, fmt.Errorf("header %q: %w", header, err)
+		return nil, fmt.Errorf("header %q: %w", clipRaw(header), err)
 	}
 	tb.Quantity = QuantityMass
 	if tb.MassIdx, err = pickColumn(tb.Header, opt.MassCol, isMassName, "mass"); err != nil {
@@ -97,18 +97,18 @@ func NewTable(header string, opt TableOptions) (*Table, error) {
 			}
 		}
 		if err != nil {
-			return nil, fmt.Errorf("header %q: %w", header, err)
+			return nil, fmt.Errorf("header %q: %w", clipRaw(header), err)
 		}
 	}
 	if tb.TimeIdx == tb.MassIdx {
-		return nil, fmt.Errorf("header %q: time and mass cannot be the same column", header)
+		return nil, fmt.Errorf("header %q: time and mass cannot be the same column", clipRaw(header))
 	}
 	_, tunit := splitUnit(tb.Header[tb.TimeIdx])
 	tb.TimeUnit = opt.TimeUnit
 	if tb.TimeUnit == 0 && tunit != "" {
 		d, ok := timeUnits[tunit]
 		if !ok {
-			return nil, fmt.Errorf("header %q: time column %q has unit %q; expected s, min, h, ms or d (or --time-unit)", header, tb.Header[tb.TimeIdx], tunit)
+			return nil, fmt.Errorf("header %q: time column %q has unit %q; expected s, min, h, ms or d (or --time-unit)", clipRaw(header), tb.Header[tb.TimeIdx], tunit)
 		}
 		tb.TimeUnit = d
 	}
@@ -117,7 +117,7 @@ func NewTable(header string, opt TableOptions) (*Table, error) {
 	if munit != "" && tb.Quantity == QuantityMass {
 		u, ok := lookupUnit(munit)
 		if !ok {
-			return nil, fmt.Errorf("header %q: mass column %q has unit %q; expected mg, g, kg, oz or lb", header, tb.Header[tb.MassIdx], munit)
+			return nil, fmt.Errorf("header %q: mass column %q has unit %q; expected mg, g, kg, oz or lb", clipRaw(header), tb.Header[tb.MassIdx], munit)
 		}
 		tb.MassUnit = u
 	}
@@ -181,7 +181,7 @@ func (tb *Table) Decode(line string) (Row, error) {
 			w = v / 100
 		}
 		if !(w >= 0 && w < 1) {
-			return Row{}, fmt.Errorf("wet-basis moisture %q in column %q is not between 0 and 100 %%", ms, tb.Header[tb.MassIdx])
+			return Row{}, fmt.Errorf("wet-basis moisture %q in column %q is not between 0 and 100 %%", clipRaw(ms), tb.Header[tb.MassIdx])
 		}
 		r.MassG = w / (1 - w)
 	} else if tb.Quantity != QuantityMass {
@@ -217,6 +217,9 @@ func (tb *Table) decodeTime(ts string, r *Row) error {
 		return nil
 	}
 	if d, ok := parseHMS(ts); ok {
+		if d < 0 || d > MaxElapsed {
+			return fmt.Errorf("time %q in column %q is beyond %d years: not an elapsed time of a drying run", clipRaw(ts), tb.Header[tb.TimeIdx], int(MaxElapsed.Hours()/24/365))
+		}
 		r.Elapsed = d
 		tb.Elapsed = true
 		return nil
@@ -226,12 +229,21 @@ func (tb *Table) decodeTime(ts string, r *Row) error {
 		return fmt.Errorf("time %q in column %q is neither an RFC 3339 time nor a number", clipRaw(ts), tb.Header[tb.TimeIdx])
 	}
 	if tb.TimeUnit == 0 {
-		return fmt.Errorf("time %q has no unit: name the column like elapsed_s, time (min) or t [h], or pass --time-unit", ts)
+		return fmt.Errorf("time %q has no unit: name the column like elapsed_s, time (min) or t [h], or pass --time-unit", clipRaw(ts))
 	}
-	r.Elapsed = time.Duration(v * float64(tb.TimeUnit))
+	ns := v * float64(tb.TimeUnit)
+	if !(math.Abs(ns) <= float64(MaxElapsed)) {
+		return fmt.Errorf("time %q in column %q is beyond %d years: not an elapsed time of a drying run", clipRaw(ts), tb.Header[tb.TimeIdx], int(MaxElapsed.Hours()/24/365))
+	}
+	r.Elapsed = time.Duration(ns)
 	tb.Elapsed = true
 	return nil
 }
+
+// MaxElapsed bounds an elapsed time read from a file: far beyond any run,
+// and far inside what a time stamp can hold (larger values wrapped round to
+// negative durations and dates before year 0).
+const MaxElapsed = 10 * 365 * 24 * time.Hour
 
 func (tb *Table) number(s string) (float64, bool) {
 	if s == "" {
@@ -389,7 +401,7 @@ func pickColumn(header []string, want string, score func(string) int, what strin
 		if n, err := strconv.Atoi(want); err == nil && n >= 1 && n <= len(header) {
 			return n - 1, nil
 		}
-		return -1, fmt.Errorf("no %s column %q; columns are %s", what, want, quoteList(header))
+		return -1, fmt.Errorf("no %s column %q; columns are %s", what, want, clipRaw(quoteList(header)))
 	}
 	best, bestScore := -1, 0
 	for i, h := range header {
@@ -405,7 +417,7 @@ func pickColumn(header []string, want string, score func(string) int, what strin
 		if what == "mass" {
 			flag, example = "--mass-col", "mass_g or weight (kg)"
 		}
-		return -1, fmt.Errorf("no %s column found among %s: expected a name like %s, or pass %s", what, quoteList(header), example, flag)
+		return -1, fmt.Errorf("no %s column found among %s: expected a name like %s, or pass %s", what, clipRaw(quoteList(header)), example, flag)
 	}
 	return best, nil
 }
@@ -491,7 +503,7 @@ func parseHMS(s string) (time.Duration, bool) {
 	h, e1 := strconv.Atoi(parts[0])
 	m, e2 := strconv.Atoi(parts[1])
 	sec, e3 := strconv.ParseFloat(parts[2], 64)
-	if e1 != nil || e2 != nil || e3 != nil || h < 0 || m < 0 || m > 59 || sec < 0 || sec >= 60 {
+	if e1 != nil || e2 != nil || e3 != nil || h < 0 || h > 1_000_000 || m < 0 || m > 59 || sec < 0 || sec >= 60 {
 		return 0, false
 	}
 	return time.Duration(h)*time.Hour + time.Duration(m)*time.Minute + time.Duration(sec*float64(time.Second)), true

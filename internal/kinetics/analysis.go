@@ -167,17 +167,22 @@ func (r *Result) spread(pick []int, why []uint8) {
 	}
 	p.Reject = rej
 	r.Readings, r.AfterCut = 0, 0
-	order := 0
+	order, jumps := 0, 0
 	for _, w := range why {
 		switch w {
 		case RejAfterCut:
 			r.AfterCut++
 		case RejOrder, RejDuplicate:
 			order++
+		case RejTimeJump:
+			jumps++
 		}
 	}
 	r.Readings = n - r.AfterCut
 	r.countRejects()
+	if jumps > 0 {
+		r.warn("%d readings more than %g h from the rest of the run were left out as time jumps (a clock change? a wrong time unit?)", jumps, MaxGapH)
+	}
 	if order > 0 {
 		r.warn("%d readings out of time order or with a time already used were left out (the longest run of readings in time order is analysed)", order)
 	}

@@ -14,6 +14,7 @@ const (
 	RejOrder             // out of time order
 	RejDuplicate         // the same time as an earlier reading
 	RejAfterCut          // after the --until cut: not analysed, not counted as rejected
+	RejTimeJump          // more than MaxGapH from the rest of the run
 )
 
 // RejectReason names a rejection code.
@@ -31,6 +32,8 @@ func RejectReason(code uint8) string {
 		return "duplicate_time"
 	case RejAfterCut:
 		return "after_cut"
+	case RejTimeJump:
+		return "time_jump"
 	}
 	return ""
 }

@@ -36,7 +36,7 @@ func inOrder(t []float64, cut float64) (pick []int, why []uint8) {
 				pick = append(pick, i)
 			}
 		}
-		return pick, why
+		return dropJumps(t, pick, why), why
 	}
 	// The same time twice: the first one stands.
 	seen := make(map[float64]struct{}, n)
@@ -82,5 +82,37 @@ func inOrder(t []float64, cut float64) (pick []int, why []uint8) {
 			why[i] = RejOrder
 		}
 	}
-	return pick, why
+	return dropJumps(t, pick, why), why
+}
+
+// MaxGapH is the longest pause between readings taken as one run: a
+// reading more than a day from the rest (a clock set to year 9999, an
+// elapsed time typed in the wrong unit) is rejected as a time jump rather
+// than stretching the run to millennia.
+const MaxGapH = 24.0
+
+// dropJumps keeps the largest stretch of picked readings with no gap over
+// MaxGapH and marks the others RejTimeJump.
+func dropJumps(t []float64, pick []int, why []uint8) []int {
+	if len(pick) < 2 {
+		return pick
+	}
+	bestFrom, bestLen, from := 0, 0, 0
+	for j := 1; j <= len(pick); j++ {
+		if j == len(pick) || t[pick[j]]-t[pick[j-1]] > MaxGapH {
+			if j-from > bestLen {
+				bestFrom, bestLen = from, j-from
+			}
+			from = j
+		}
+	}
+	if bestLen == len(pick) {
+		return pick
+	}
+	for j, i := range pick {
+		if j < bestFrom || j >= bestFrom+bestLen {
+			why[i] = RejTimeJump
+		}
+	}
+	return pick[bestFrom : bestFrom+bestLen]
 }

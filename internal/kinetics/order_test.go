@@ -10,11 +10,12 @@ import (
 func TestInOrder(t *testing.T) {
 	nan := math.NaN()
 	const (
-		ok  = KeepOK
-		ord = RejOrder
-		dup = RejDuplicate
-		cut = RejAfterCut
-		bad = RejNotPositive
+		ok   = KeepOK
+		ord  = RejOrder
+		dup  = RejDuplicate
+		cut  = RejAfterCut
+		bad  = RejNotPositive
+		jump = RejTimeJump
 	)
 	for _, tc := range []struct {
 		name string
@@ -36,6 +37,10 @@ func TestInOrder(t *testing.T) {
 		{"cut with a row out of order", []float64{0, 1, 5, 2, 3}, 2.5, []int{0, 1, 3}, []uint8{ok, ok, cut, ok, cut}},
 		{"no time", []float64{0, nan, 1}, nan, []int{0, 2}, []uint8{ok, bad, ok}},
 		{"all after the cut", []float64{3, 4}, 1, nil, []uint8{cut, cut}},
+		// Issue 9, case 5: a reading dated thousands of years off.
+		{"time jump at the end", []float64{0, 1, 2, 7e7}, nan, []int{0, 1, 2}, []uint8{ok, ok, ok, jump}},
+		{"time jump at the start", []float64{-7e7, 0, 1, 2}, nan, []int{1, 2, 3}, []uint8{jump, ok, ok, ok}},
+		{"a day's pause is one run", []float64{0, 1, 24.5, 25}, nan, []int{0, 1, 2, 3}, []uint8{ok, ok, ok, ok}},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			pick, why := inOrder(tc.t, tc.cut)

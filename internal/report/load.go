@@ -5,7 +5,7 @@
 package report
 
 import (
-	"bufio"
+	"parch/internal/textline"
 	"bytes"
 	"errors"
 	"fmt"
@@ -77,20 +77,27 @@ func Load(path string, table ingest.TableOptions) (*Run, error) {
 		return nil, fmt.Errorf("open %s: %w", path, err)
 	}
 	defer f.Close()
-	br := bufio.NewReaderSize(f, 64<<10)
-	head, _ := br.Peek(1)
+	if st, err := f.Stat(); err == nil && !st.Mode().IsRegular() && st.Mode()&os.ModeNamedPipe == 0 {
+		return nil, fmt.Errorf("%s is not a file (a device or a folder): expected a parch session log or a CSV", path)
+	}
+	lr := textline.NewReader(f, MaxLineBytes)
+	head := lr.Peek(1)
 	if len(head) == 0 {
 		return nil, fmt.Errorf("%s is empty: expected a parch session log or a CSV with a header row", path)
 	}
 	if head[0] == '{' {
-		return loadSession(path, br)
+		return loadSession(path, lr)
 	}
 	table.AllowMoisture = true
-	return loadTable(path, br, table)
+	return loadTable(path, lr, table)
 }
 
-func loadSession(path string, r io.Reader) (*Run, error) {
-	log, err := session.Read(r, path)
+// MaxLineBytes bounds a line of a file read for a report; longer lines are
+// skipped with a warning that names them, never held in memory.
+const MaxLineBytes = 1 << 20
+
+func loadSession(path string, lr *textline.Reader) (*Run, error) {
+	log, err := session.ReadLines(lr, path)
 	if err != nil {
 		return nil, err
 	}
@@ -126,7 +133,7 @@ func loadSession(path string, r io.Reader) (*Run, error) {
 	return run, nil
 }
 
-func loadTable(path string, br *bufio.Reader, opt ingest.TableOptions) (*Run, error) {
+func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions) (*Run, error) {
 	run := &Run{Path: path, Format: "csv", Params: map[string]float64{}, Channels: map[string][]float32{}}
 	var tb *ingest.Table
 	lineNo := 0
@@ -135,10 +142,23 @@ func loadTable(path string, br *bufio.Reader, opt ingest.TableOptions) (*Run, er
 	first := true
 	skipped := 0
 	for {
-		line, err := br.ReadString('\n')
-		if len(line) > 0 {
-			lineNo++
-			line = strings.TrimRight(line, "\r\n")
+		raw, long, err := lr.Next()
+		lineNo = lr.No
+		if err != nil && err != io.EOF {
+			return nil, fmt.Errorf("%s: %w", path, err)
+		}
+		if long > 0 {
+			if tb == nil {
+				return nil, fmt.Errorf("%s: line 1 (the header) is %d bytes long: expected a CSV header row", path, long)
+			}
+			skipped++
+			if skipped <= 10 {
+				run.Warnings = append(run.Warnings, fmt.Sprintf("%s: line %d skipped: %d bytes long, over the %d-byte limit", path, lineNo, long, MaxLineBytes))
+			}
+			continue
+		}
+		if len(raw) > 0 {
+			line := strings.TrimRight(string(raw), "\r\n")
 			if tb == nil {
 				if tb, err = ingest.NewTable(line, opt); err != nil {
 					return nil, fmt.Errorf("%s: %w", path, err)

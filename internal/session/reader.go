@@ -1,7 +1,7 @@
 package session
 
 import (
-	"bufio"
+	"parch/internal/textline"
 	"bytes"
 	"encoding/json"
 	"errors"
@@ -131,9 +131,19 @@ func Load(path string) (*Log, error) {
 
 // Read reads a session log from r; name is used in messages.
 func Read(r io.Reader, name string) (*Log, error) {
+	return ReadLines(textline.NewReader(r, MaxLineBytes), name)
+}
+
+// MaxLineBytes bounds a log line: longer ones are skipped with a warning
+// (a parch line is well under 1 KB; a file with a 1 GB line must not take
+// gigabytes to read).
+const MaxLineBytes = 1 << 20
+
+// ReadLines is Read from a bounded line reader.
+func ReadLines(lr *textline.Reader, name string) (*Log, error) {
 	l := &Log{Path: name}
 	var d Decoder
-	err := d.Scan(r, name, func(e *Event, fast *FastReading) {
+	err := d.scan(lr, name, func(e *Event, fast *FastReading) {
 		if fast != nil {
 			l.Readings.add(fast.TimeMs, fast.MassG, fast.Stable)
 			for i := 0; i < fast.NChan; i++ {
@@ -196,29 +206,32 @@ type Decoder struct {
 // are not valid events are reported to warn and skipped; a first line that
 // is not a session header is an error (the file is not ours).
 func (d *Decoder) Scan(r io.Reader, name string, fn func(e *Event, fast *FastReading), warn func(string, ...any)) error {
-	br := bufio.NewReaderSize(r, 256<<10)
-	var long []byte
-	lineNo := 0
+	return d.scan(textline.NewReader(r, MaxLineBytes), name, fn, warn)
+}
+
+func (d *Decoder) scan(lr *textline.Reader, name string, fn func(e *Event, fast *FastReading), warn func(string, ...any)) error {
 	for {
-		line, err := br.ReadSlice('\n')
-		if errors.Is(err, bufio.ErrBufferFull) {
-			long = append(long[:0], line...)
-			for errors.Is(err, bufio.ErrBufferFull) {
-				line, err = br.ReadSlice('\n')
-				long = append(long, line...)
+		line, long, err := lr.Next()
+		lineNo := lr.No
+		if long > 0 {
+			if lineNo == 1 {
+				return fmt.Errorf("%s: %w: its first line is %d bytes long", name, ErrNotSession, long)
 			}
-			line = long
+			warn("%s: line %d: %d bytes long, over the %d-byte limit, skipped", name, lineNo, long, MaxLineBytes)
+			continue
 		}
-		if len(line) == 0 && err != nil {
-			if err == io.EOF {
-				if lineNo == 0 {
-					return fmt.Errorf("%s: %w: the file is empty", name, ErrNotSession)
-				}
-				return nil
+		if err != nil && err != io.EOF {
+			if errors.Is(err, textline.ErrBinary) {
+				return fmt.Errorf("%s: %w", name, err)
 			}
 			return fmt.Errorf("read %s: %w", name, err)
 		}
-		lineNo++
+		if len(line) == 0 {
+			if lineNo == 0 {
+				return fmt.Errorf("%s: %w: the file is empty", name, ErrNotSession)
+			}
+			return nil
+		}
 		complete := line[len(line)-1] == '\n'
 		body := bytes.TrimRight(line, "\r\n")
 		if lineNo == 1 {
@@ -236,12 +249,6 @@ func (d *Decoder) Scan(r io.Reader, name string, fn func(e *Event, fast *FastRea
 			warn("%s: line %d: incomplete last line (a crash mid-write?), skipped: %s", name, lineNo, clip(string(body), 60))
 		} else {
 			warn("%s: line %d: %v, skipped", name, lineNo, perr)
-		}
-		if err == io.EOF {
-			return nil
-		}
-		if err != nil {
-			return fmt.Errorf("read %s: %w", name, err)
 		}
 	}
 }
