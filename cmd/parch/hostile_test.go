@@ -2,6 +2,7 @@ package main
 
 import (
 	"bytes"
+	"fmt"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -10,6 +11,8 @@ import (
 	"syscall"
 	"testing"
 	"time"
+
+	"parch/internal/session"
 )
 
 // runMeasured runs parch and returns its peak memory (resident set, MB).
@@ -131,4 +134,114 @@ func toStrings(v any) []string {
 		}
 	}
 	return out
+}
+
+// Issue 9, case 2: restarting `record --follow` on the same file and log
+// records no row twice, after a clean stop (SIGTERM) or a SIGKILL, for
+// clock-time and elapsed-time files; and case 10: SIGTERM stops a follow
+// promptly and writes `stopped`.
+func TestFollowRestartRecordsNoRowTwice(t *testing.T) {
+	for _, tc := range []struct{ name, header string }{
+		{"clock times", "time,mass_g"},
+		{"elapsed times", "elapsed_s,mass_g"},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			dir := t.TempDir()
+			csv := filepath.Join(dir, "logger.csv")
+			start := time.Date(2026, 12, 2, 8, 0, 0, 0, time.UTC)
+			row := func(i int) string {
+				tm := start.Add(time.Duration(i) * 10 * time.Second).Format(time.RFC3339)
+				if strings.HasPrefix(tc.header, "elapsed") {
+					tm = strconv.Itoa(i * 10)
+				}
+				return fmt.Sprintf("%s,%.2f\n", tm, 200-0.1*float64(i))
+			}
+			var b strings.Builder
+			b.WriteString(tc.header + "\n")
+			for i := 0; i < 300; i++ {
+				b.WriteString(row(i))
+			}
+			os.WriteFile(csv, []byte(b.String()), 0o644)
+			logPath := filepath.Join(dir, "s.jsonl")
+			want := 300
+			for round, sig := range []os.Signal{syscall.SIGTERM, syscall.SIGKILL, syscall.SIGTERM} {
+				cmd := exec.Command(binary, "record", "--follow", csv, "--session", logPath, "--status", "0")
+				cmd.Dir = dir
+				if err := cmd.Start(); err != nil {
+					t.Fatal(err)
+				}
+				// Wait until every row is in the log (and, before a kill,
+				// a little longer so its position line is on disk too).
+				deadline := time.Now().Add(15 * time.Second)
+				for {
+					l, err := session.Load(logPath)
+					if err == nil && l.Readings.Len() >= want {
+						break
+					}
+					if time.Now().After(deadline) {
+						t.Fatalf("round %d: readings never reached %d", round, want)
+					}
+					time.Sleep(50 * time.Millisecond)
+				}
+				if sig == syscall.SIGKILL {
+					time.Sleep(1500 * time.Millisecond)
+				}
+				cmd.Process.Signal(sig)
+				done := make(chan error, 1)
+				go func() { done <- cmd.Wait() }()
+				select {
+				case <-done:
+				case <-time.After(5 * time.Second):
+					cmd.Process.Kill()
+					t.Fatalf("round %d: record did not stop within 5 s of %v", round, sig)
+				}
+				// The logger writes on between runs.
+				f, _ := os.OpenFile(csv, os.O_WRONLY|os.O_APPEND, 0)
+				for i := want; i < want+20; i++ {
+					f.WriteString(row(i))
+				}
+				f.Close()
+				want += 20
+			}
+			// One last run picks up the final 20 rows.
+			cmd := exec.Command(binary, "record", "--follow", csv, "--session", logPath, "--status", "0")
+			cmd.Dir = dir
+			cmd.Start()
+			deadline := time.Now().Add(15 * time.Second)
+			var l *session.Log
+			for {
+				l, _ = session.Load(logPath)
+				if l != nil && l.Readings.Len() >= want || time.Now().After(deadline) {
+					break
+				}
+				time.Sleep(50 * time.Millisecond)
+			}
+			time.Sleep(500 * time.Millisecond) // time for any duplicate to arrive
+			cmd.Process.Signal(syscall.SIGTERM)
+			cmd.Wait()
+			l, _ = session.Load(logPath)
+			if l.Readings.Len() != want {
+				t.Errorf("%d readings in the log after 4 runs, want the %d rows of the file", l.Readings.Len(), want)
+			}
+			seen := map[int64]bool{}
+			for _, ms := range l.Readings.TimeMs {
+				if seen[ms] {
+					t.Errorf("reading at %v recorded twice", time.UnixMilli(ms).UTC())
+					break
+				}
+				seen[ms] = true
+			}
+			if last := l.Sources[len(l.Sources)-1]; last.Event != session.SourceStopped {
+				t.Errorf("last source event %q after SIGTERM, want stopped", last.Event)
+			}
+		})
+	}
+}
+
+// Issue 9, case 10: a device given to --follow is refused at once.
+func TestFollowRefusesDevices(t *testing.T) {
+	_, stderr, code := parch(t, t.TempDir(), "record", "--follow", "/dev/zero", "--session", "z.jsonl")
+	if code != 1 || !strings.Contains(stderr, "not a regular file") {
+		t.Errorf("record --follow /dev/zero: exit %d, %q", code, stderr)
+	}
 }

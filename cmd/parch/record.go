@@ -60,6 +60,9 @@ func record(ctx context.Context, sf *sourceFlags, statusEvery time.Duration, sta
 	if path == "" {
 		path = defaultSessionPath(now)
 	}
+	if earlier, err := session.Load(path); err == nil {
+		resumeFollow(source, earlier)
+	}
 	log, reopened, err := session.CreateOrOpen(path, program, now)
 	if err != nil {
 		return err

@@ -1,8 +1,11 @@
 package main
 
 import (
+	"encoding/base64"
 	"flag"
 	"fmt"
+	"parch/internal/session"
+	"path/filepath"
 	"time"
 
 	"go.bug.st/serial"
@@ -169,4 +172,36 @@ func (s *sourceFlags) serialMode() (serial.Mode, error) {
 // defaultSessionPath names a new log from the start time.
 func defaultSessionPath(now time.Time) string {
 	return fmt.Sprintf("session-%s.jsonl", now.Format("20060102-150405"))
+}
+
+// resumeFollow points a file follower at where the log's last recorder of
+// the same file stopped, and makes it skip rows the log already holds: a
+// restarted `record --follow` records no row twice.
+func resumeFollow(src recorder.Source, l *session.Log) {
+	f, ok := src.(*ingest.Follow)
+	if !ok || l == nil {
+		return
+	}
+	abs, _ := filepath.Abs(f.Path)
+	for i := len(l.Sources) - 1; i >= 0; i-- {
+		e := l.Sources[i]
+		if e.Event != session.SourcePosition {
+			continue
+		}
+		file, _ := e.Params["file"].(string)
+		if fa, _ := filepath.Abs(file); fa != abs {
+			continue
+		}
+		off, _ := e.Params["offset"].(float64)
+		tail, _ := base64.StdEncoding.DecodeString(fmt.Sprint(e.Params["tail"]))
+		p := &ingest.Position{File: f.Path, Offset: int64(off), Tail: tail}
+		if b, ok := e.Params["base"].(string); ok {
+			p.Base, _ = time.Parse(time.RFC3339Nano, b)
+		}
+		f.Resume = p
+		break
+	}
+	if n := l.Readings.Len(); n > 0 {
+		f.After = time.UnixMilli(l.Readings.TimeMs[n-1])
+	}
 }

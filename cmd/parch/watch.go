@@ -158,6 +158,7 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 			if earlier, err = session.Load(path); err != nil {
 				return err
 			}
+			resumeFollow(source, earlier)
 		}
 		refPath, err := sf.referenceToRecord()
 		if err != nil {

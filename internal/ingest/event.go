@@ -19,8 +19,21 @@ const (
 	KindUnparseable = "unparseable"
 	KindLineCut     = "line_cut"
 	KindWarning     = "warning"
-	KindNote        = "note" // a note in a followed session log (Note is set)
+	KindNote        = "note"     // a note in a followed session log (Note is set)
+	KindPosition    = "position" // how far a followed file has been read (Pos is set)
 )
+
+// Position is how far a followed file has been read, for resuming after a
+// restart without recording its rows twice: the byte offset of the next
+// line, the bytes just before it (to tell the same file from a rotated or
+// rewritten one), and the clock time of elapsed zero for tables of elapsed
+// time (zero for clock-time tables).
+type Position struct {
+	File   string
+	Offset int64
+	Tail   []byte
+	Base   time.Time
+}
 
 // Event is what a source hands on: a reading, or something that happened to
 // the source. Sources send them in batches ([]Event) so a consumer does its
@@ -34,6 +47,7 @@ type Event struct {
 	Channels map[string]float64 // other measured values (air_temp_c, rh_pct...)
 	Detail   string             // for non-readings: what happened, in words
 	Note     *session.Event     // KindNote: the note as the followed log has it
+	Pos      *Position          // KindPosition
 }
 
 // FromLine turns a parsed balance line into an event.

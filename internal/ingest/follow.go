@@ -29,6 +29,13 @@ type Follow struct {
 	Start time.Time
 	Poll  time.Duration // default 1 s
 	Now   func() time.Time
+	// Resume continues from where an earlier recorder stopped (the last
+	// position its log holds) when the file is still the same; else the
+	// file is read from its start. Rows whose time is at or before After
+	// (the log's newest reading) are skipped while catching up, so a
+	// restart records no row twice.
+	Resume *Position
+	After  time.Time
 
 	noNotify bool // tests: behave as on a share where no change events arrive
 }
@@ -45,11 +52,12 @@ func (f *Follow) Run(ctx context.Context, out chan<- []Event) error {
 	if f.Poll <= 0 {
 		f.Poll = time.Second
 	}
-	st := &followState{f: f}
+	st := &followState{f: f, ctx: ctx}
 	if err := st.open(); err != nil {
 		return err
 	}
 	defer st.close()
+	resumed := st.resume()
 	send := func(b []Event) bool {
 		if len(b) == 0 {
 			return true
@@ -61,7 +69,14 @@ func (f *Follow) Run(ctx context.Context, out chan<- []Event) error {
 			return false
 		}
 	}
-	if !send([]Event{{T: f.Now(), Kind: KindStarted, Detail: "following " + f.Path}}) {
+	started := "following " + f.Path
+	switch {
+	case resumed:
+		started += fmt.Sprintf(" from byte %d, where the log's last recorder stopped", f.Resume.Offset)
+	case f.Resume != nil:
+		started += " from its start: it is not the file the log's last recorder read (rotated or rewritten)"
+	}
+	if !send([]Event{{T: f.Now(), Kind: KindStarted, Detail: started}}) {
 		return nil
 	}
 	if err := st.read(send, true); err != nil {
@@ -110,14 +125,16 @@ func (f *Follow) Run(ctx context.Context, out chan<- []Event) error {
 }
 
 type followState struct {
-	f      *Follow
-	file   *os.File
-	info   os.FileInfo
-	offset int64
-	tail   []byte // the bytes just before offset, to detect a rewrite
-	sp     Splitter
-	dec    lineDecoder
-	header bool // the first line has been read
+	f       *Follow
+	ctx     context.Context
+	skipped int // rows at or before Follow.After passed over
+	file    *os.File
+	info    os.FileInfo
+	offset  int64
+	tail    []byte // the bytes just before offset, to detect a rewrite
+	sp      Splitter
+	dec     lineDecoder
+	header  bool // the first line has been read
 }
 
 func (st *followState) open() error {
@@ -136,6 +153,10 @@ func (st *followState) open() error {
 	if info.IsDir() {
 		file.Close()
 		return fmt.Errorf("follow: %s is a folder, expected a CSV/TSV file or a parch session log", st.f.Path)
+	}
+	if !info.Mode().IsRegular() {
+		file.Close()
+		return fmt.Errorf("follow: %s is not a regular file (a device or a pipe): expected a CSV/TSV file or a parch session log; for a balance use --port", st.f.Path)
 	}
 	st.close()
 	st.file, st.info, st.offset, st.tail = file, info, 0, st.tail[:0]
@@ -190,6 +211,9 @@ func (st *followState) readNew(send func([]Event) bool, now time.Time, first boo
 	var lines []string
 	var headerErr error
 	for {
+		if st.ctx != nil && st.ctx.Err() != nil {
+			return nil // stopping: a long catch-up does not hold up a SIGTERM
+		}
 		n, err := st.file.ReadAt(buf, st.offset)
 		if n > 0 {
 			st.offset += int64(n)
@@ -221,8 +245,61 @@ func (st *followState) readNew(send func([]Event) bool, now time.Time, first boo
 	if headerErr != nil {
 		return fmt.Errorf("%s: %w", st.f.Path, headerErr)
 	}
-	st.emit(lines, send)
+	if len(lines) > 0 && st.emit(lines, send) {
+		send([]Event{st.position(now)})
+	}
 	return nil
+}
+
+// position is where the next complete line starts, with the bytes before.
+func (st *followState) position(now time.Time) Event {
+	off := st.offset - int64(st.sp.Pending())
+	tail := make([]byte, min(off, 32))
+	n, _ := st.file.ReadAt(tail, off-int64(len(tail)))
+	p := &Position{File: st.f.Path, Offset: off, Tail: tail[:n]}
+	if td, ok := st.dec.(*tableDecoder); ok {
+		p.Base = td.base
+	}
+	return Event{T: now, Kind: KindPosition, Pos: p}
+}
+
+// resume moves to the Resume position when the file is still the one it
+// was taken from: the bytes before the offset match. It reads the header
+// line first, for the decoder.
+func (st *followState) resume() bool {
+	r := st.f.Resume
+	if r == nil || r.Offset <= 0 || r.Offset > st.info.Size() {
+		return false
+	}
+	got := make([]byte, len(r.Tail))
+	if n, _ := st.file.ReadAt(got, r.Offset-int64(len(got))); n != len(got) || !bytes.Equal(got, r.Tail) {
+		return false
+	}
+	buf := make([]byte, 4096)
+	var sp Splitter
+	for off := int64(0); off < r.Offset && !st.header; {
+		n, err := st.file.ReadAt(buf[:min(int64(len(buf)), r.Offset-off)], off)
+		off += int64(n)
+		sp.Feed(buf[:n], func(line []byte, _ bool) {
+			if !st.header {
+				st.header = true
+				st.dec, _ = newLineDecoder(string(line), st.f)
+			}
+		})
+		if err != nil || n == 0 {
+			break
+		}
+	}
+	if st.dec == nil {
+		st.header = false
+		return false
+	}
+	if td, ok := st.dec.(*tableDecoder); ok && !r.Base.IsZero() {
+		td.base = r.Base
+	}
+	st.offset = r.Offset
+	st.tail = append(st.tail[:0], r.Tail...)
+	return true
 }
 
 func (st *followState) emit(lines []string, send func([]Event) bool) bool {
@@ -233,7 +310,29 @@ func (st *followState) emit(lines []string, send func([]Event) bool) bool {
 	if info, err := st.file.Stat(); err == nil {
 		mtime = info.ModTime()
 	}
-	return send(st.dec.decode(lines, mtime))
+	evs := st.dec.decode(lines, mtime)
+	if !st.f.After.IsZero() {
+		// Catching up after a restart: rows the log already holds.
+		kept := evs[:0]
+		for _, e := range evs {
+			if e.Kind == KindReading && !st.f.After.IsZero() {
+				if !e.T.After(st.f.After) {
+					st.skipped++
+					continue
+				}
+				st.f.After = time.Time{}
+				if st.skipped > 0 {
+					kept = append(kept, Event{T: e.T, Kind: KindWarning, Detail: fmt.Sprintf("%d rows of %s already in the log were not recorded again", st.skipped, st.f.Path)})
+				}
+			}
+			kept = append(kept, e)
+		}
+		evs = kept
+	}
+	if len(evs) == 0 {
+		return true
+	}
+	return send(evs)
 }
 
 func (st *followState) keepTail(p []byte) {

@@ -1,12 +1,12 @@
 package ingest
 
 import (
-	"parch/internal/safetext"
 	"context"
 	"errors"
 	"fmt"
 	"io/fs"
 	"math/bits"
+	"parch/internal/safetext"
 	"path/filepath"
 	"sort"
 	"strings"

@@ -7,6 +7,7 @@ package recorder
 
 import (
 	"context"
+	"encoding/base64"
 	"errors"
 	"fmt"
 	"time"
@@ -58,6 +59,8 @@ type Recorder struct {
 	noisyWindow time.Time
 	noisyCount  int
 	suppressed  int
+	pos         *ingest.Position // newest position of a followed file not yet written
+	posWritten  time.Time
 }
 
 // Stats returns the figures so far.
@@ -102,6 +105,18 @@ func (r *Recorder) Write(batch []ingest.Event) error {
 			r.stats.LastMassG, r.stats.LastT, r.stats.LastSeen = e.MassG, e.T, now
 		case ingest.KindNote:
 			continue // notes in a followed log stay in that log
+		case ingest.KindPosition:
+			// Kept, and written at most every positionEvery (and at the
+			// end): a restart re-reads at most that much, and the follower
+			// skips rows the log already holds.
+			r.pos = e.Pos
+			if now.Sub(r.posWritten) < positionEvery {
+				continue
+			}
+			if err := r.writePosition(now); err != nil {
+				return err
+			}
+			continue
 		case ingest.KindUnparseable, ingest.KindLineCut:
 			r.stats.Unparseable++
 			if !r.allowNoisy(now) {
@@ -126,6 +141,25 @@ func (r *Recorder) Write(batch []ingest.Event) error {
 		}
 	}
 	return nil
+}
+
+// positionEvery is the least time between position lines in the log.
+const positionEvery = 10 * time.Second
+
+// writePosition writes the newest position of a followed file, if any is
+// not yet written.
+func (r *Recorder) writePosition(now time.Time) error {
+	if r.pos == nil {
+		return nil
+	}
+	p := r.pos
+	r.pos, r.posWritten = nil, now
+	params := map[string]any{"file": p.File, "offset": p.Offset, "tail": base64.StdEncoding.EncodeToString(p.Tail)}
+	if !p.Base.IsZero() {
+		params["base"] = p.Base.UTC().Format(time.RFC3339Nano)
+	}
+	return r.Log.Append(&session.Event{Type: session.TypeSource, T: now, Event: session.SourcePosition,
+		Detail: fmt.Sprintf("read up to byte %d", p.Offset), Params: params})
 }
 
 func (r *Recorder) allowNoisy(now time.Time) bool {
@@ -211,7 +245,7 @@ func (r *Recorder) Run(ctx context.Context, src Source, statusEvery time.Duratio
 		case <-ctx.Done():
 			cancel()
 			<-srcErr
-			return finish(nil)
+			return r.closing(finish(nil))
 		case b := <-out:
 			if err := r.Write(b); err != nil {
 				return err
@@ -221,9 +255,9 @@ func (r *Recorder) Run(ctx context.Context, src Source, statusEvery time.Duratio
 			}
 		case err := <-srcErr:
 			if err != nil {
-				return finish(err)
+				return r.closing(finish(err))
 			}
-			return finish(ErrSourceEnded)
+			return r.closing(finish(ErrSourceEnded))
 		case <-tick.C:
 			if err := r.Tick(); err != nil {
 				return err
@@ -232,4 +266,20 @@ func (r *Recorder) Run(ctx context.Context, src Source, statusEvery time.Duratio
 			status(r.stats)
 		}
 	}
+}
+
+// closing writes what is held back when recording stops: the newest
+// position of a followed file and the count of suppressed noise lines.
+func (r *Recorder) closing(err error) error {
+	now := r.now()
+	if werr := r.writePosition(now); werr != nil && err == nil {
+		err = werr
+	}
+	if r.suppressed > 0 {
+		if werr := r.source(now, session.SourceSuppressed, fmt.Sprintf("%d more unparseable lines in the last minute were not written", r.suppressed), ""); werr != nil && err == nil {
+			err = werr
+		}
+		r.suppressed = 0
+	}
+	return err
 }

@@ -5,13 +5,13 @@
 package report
 
 import (
-	"parch/internal/textline"
 	"bytes"
 	"errors"
 	"fmt"
 	"io"
 	"math"
 	"os"
+	"parch/internal/textline"
 	"sort"
 	"strings"
 	"time"

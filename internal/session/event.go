@@ -39,8 +39,11 @@ const (
 	SourceUnparseable = "unparseable"
 	SourceLineCut     = "line_cut"
 	SourceReopened    = "reopened"
-	SourceSuppressed  = "suppressed"
-	SourceWarning     = "warning"
+	// SourcePosition records how far a followed file was read (params
+	// "file", "offset", "tail", "base"), so a restart resumes there.
+	SourcePosition   = "position"
+	SourceSuppressed = "suppressed"
+	SourceWarning    = "warning"
 )
 
 // Event is one line of the log. Which fields matter depends on Type; the

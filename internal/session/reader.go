@@ -1,7 +1,6 @@
 package session
 
 import (
-	"parch/internal/textline"
 	"bytes"
 	"encoding/json"
 	"errors"
@@ -9,6 +8,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"parch/internal/textline"
 	"strconv"
 	"time"
 )
@@ -314,7 +314,12 @@ func decodeEvent(b []byte) (*Event, error) {
 		return e, nil
 	case TypeSource:
 		e.Event, e.Detail, e.Raw = str("event"), str("detail"), str("raw")
-		return e, nil
+		delete(m, "event")
+		delete(m, "detail")
+		delete(m, "raw")
+		if len(m) == 0 {
+			return e, nil
+		}
 	}
 	// setup, session header and types added later: keep every key.
 	e.Params = make(map[string]any, len(m))
