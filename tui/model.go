@@ -111,6 +111,7 @@ type Model struct {
 	state       string
 	stateSince  time.Time
 	stateDetail string
+	stopped     bool // the recording stopped on an error: said in the alerts
 	problems    int
 
 	moistView int // 0 mass, 1 wet basis, 2 dry basis, 3 moisture ratio
@@ -195,8 +196,10 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 		cmds = append(cmds, m.checkBell())
 		return m, tea.Batch(cmds...)
 	case eventsClosedMsg:
-		m.state, m.stateSince = stateEnded, m.opt.Now()
-		m.stateDetail = "the source has ended"
+		if m.state != stateEnded {
+			m.state, m.stateSince = stateEnded, m.opt.Now()
+			m.stateDetail = "the source has ended"
+		}
 		m.dirty = true
 		return m, m.maybeAnalyze()
 	case analysisMsg:
@@ -247,6 +250,9 @@ func (m *Model) addEvents(b []ingest.Event) {
 			m.state, m.stateSince, m.stateDetail = stateLost, now, e.Detail
 		case ingest.KindBack:
 			m.state, m.stateSince, m.stateDetail = stateLive, now, e.Detail
+		case ingest.KindStopped:
+			m.problems++
+			m.state, m.stateSince, m.stateDetail, m.stopped = stateEnded, now, e.Detail, true
 		case ingest.KindWarning, ingest.KindDeviceError, ingest.KindOverload, ingest.KindUnderload:
 			m.problems++
 			m.stateDetail = e.Detail
@@ -301,8 +307,16 @@ func (m *Model) maybeAnalyze() tea.Cmd {
 	// Prefixes of append-only slices: later appends never touch them.
 	s := kinetics.Series{TimeH: m.th[:n:n], Value: m.raw[:n:n], Stable: m.stable[:n:n]}
 	setup := m.setupWithRemovals()
-	return func() tea.Msg {
-		res, err := kinetics.Analyze(s, setup, kinetics.Options{Reference: m.opt.Reference})
+	ref := m.opt.Reference
+	return func() (msg tea.Msg) {
+		// The recording runs in this process: a fault in the analysis must
+		// cost the figures, never the record.
+		defer func() {
+			if p := recover(); p != nil {
+				msg = analysisMsg{n: n, setup: setup, err: fmt.Errorf("analysis failed: %v", p)}
+			}
+		}()
+		res, err := kinetics.Analyze(s, setup, kinetics.Options{Reference: ref})
 		return analysisMsg{res: res, n: n, setup: setup, err: err}
 	}
 }

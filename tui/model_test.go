@@ -393,3 +393,33 @@ func TestNoteEscapesShownAsText(t *testing.T) {
 		t.Errorf("the note is not shown as text:\n%s", plain(v))
 	}
 }
+
+// Issue 9, case 12: a recording that stops on a full disk says so on the
+// screen at once, not after quitting.
+func TestRecordingStoppedShown(t *testing.T) {
+	m := newTestModel(&memSink{}, start.Add(time.Hour))
+	m = step(t, m, tea.WindowSizeMsg{Width: 100, Height: 30})
+	m = step(t, m, eventsMsg(simEvents(t, 0.5)))
+	m = step(t, m, eventsMsg{{T: start.Add(time.Hour), Kind: ingest.KindStopped, Detail: "recording stopped: session log s.jsonl: disk full"}})
+	m = step(t, m, eventsClosedMsg{})
+	if v := plain(m.View()); !strings.Contains(v, "! RECORDING STOPPED: session log s.jsonl: disk full") {
+		t.Errorf("the stop is not shown:\n%s", v)
+	}
+}
+
+// Issue 9, case 1: readings that go back in time (a clock change, a first
+// row out of place) neither crash the dashboard nor stop its figures.
+func TestReadingsBackInTime(t *testing.T) {
+	m := newTestModel(&memSink{}, start.Add(2*time.Hour))
+	m = step(t, m, tea.WindowSizeMsg{Width: 100, Height: 30})
+	evs := simEvents(t, 1)
+	late := evs[50]
+	late.MassG = 200
+	m = step(t, m, eventsMsg(append([]ingest.Event{late}, evs...)))
+	if m.res == nil || m.res.RejectedBy["out_of_order"]+m.res.RejectedBy["duplicate_time"] == 0 || math.IsNaN(m.res.FinalMassG) {
+		t.Fatalf("analysis after a reading back in time: %+v", m.res)
+	}
+	if !strings.Contains(plain(m.View()), "moisture") {
+		t.Error("no figures")
+	}
+}

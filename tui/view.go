@@ -133,6 +133,10 @@ func (m *Model) alerts(w int) string {
 		a = append(a, "! SOURCE LOST since "+m.stateSince.Local().Format("15:04")+": "+safetext.Terminal(m.stateDetail))
 	case stateStalled:
 		a = append(a, "! STALLED: "+safetext.Terminal(m.stateDetail))
+	case stateEnded:
+		if m.stopped {
+			a = append(a, "! RECORDING STOPPED: "+safetext.Terminal(strings.TrimPrefix(m.stateDetail, "recording stopped: ")))
+		}
 	}
 	if m.livePt.Period == kinetics.PeriodSteady || m.lastGood.Period == kinetics.PeriodSteady {
 		a = append(a, "= STEADY WEIGHT: end of run?")

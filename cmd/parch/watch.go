@@ -212,11 +212,12 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 		go func() {
 			err := rec.Run(recCtx, source, 0, nil)
 			if err != nil {
-				detail := "source ended"
+				ev := ingest.Event{T: time.Now(), Kind: ingest.KindWarning, Detail: "source ended"}
 				if !errors.Is(err, recorder.ErrSourceEnded) {
-					detail = err.Error()
+					// Said on the screen at once: readings are no longer kept.
+					ev.Kind, ev.Detail = ingest.KindStopped, "recording stopped: "+err.Error()
 				}
-				mb.Put([]ingest.Event{{T: time.Now(), Kind: ingest.KindWarning, Detail: detail}})
+				mb.Put([]ingest.Event{ev})
 			}
 			mb.Close()
 			recDone <- err

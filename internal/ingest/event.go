@@ -21,6 +21,7 @@ const (
 	KindWarning     = "warning"
 	KindNote        = "note"     // a note in a followed session log (Note is set)
 	KindPosition    = "position" // how far a followed file has been read (Pos is set)
+	KindStopped     = "stopped"  // the recording stopped (a full disk...): Detail says why
 )
 
 // Position is how far a followed file has been read, for resuming after a

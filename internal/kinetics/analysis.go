@@ -86,6 +86,11 @@ func (r *Result) warn(format string, a ...any) {
 	r.Warnings = append(r.Warnings, fmt.Sprintf(format, a...))
 }
 
+// MaxValue is the largest reading taken as a mass (g) or moisture: a
+// million grams is far beyond a laboratory balance, and values near the
+// float limit overflow every difference taken of them.
+const MaxValue = 1e6
+
 // ErrNoReadings is returned for an empty series.
 var ErrNoReadings = errors.New("no readings")
 
@@ -234,6 +239,8 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 			pts.Reject[i] = RejUnstable
 		case !(v > 0) || math.IsInf(v, 0) || math.IsNaN(t[i]):
 			pts.Reject[i] = RejNotPositive
+		case v > MaxValue:
+			pts.Reject[i] = RejImplausible
 		default:
 			keep[i] = true
 		}

@@ -15,6 +15,7 @@ const (
 	RejDuplicate         // the same time as an earlier reading
 	RejAfterCut          // after the --until cut: not analysed, not counted as rejected
 	RejTimeJump          // more than MaxGapH from the rest of the run
+	RejImplausible       // above MaxValue: not a mass on a balance
 )
 
 // RejectReason names a rejection code.
@@ -34,6 +35,8 @@ func RejectReason(code uint8) string {
 		return "after_cut"
 	case RejTimeJump:
 		return "time_jump"
+	case RejImplausible:
+		return "implausible"
 	}
 	return ""
 }

@@ -123,3 +123,30 @@ func TestMoistureRatioInput(t *testing.T) {
 		t.Errorf("projection to 30 %% wb (X 0.43) from X 0.77: %+v", r.Projection)
 	}
 }
+
+// Issue 9, case 12: masses near the float limit are rejected, not turned
+// into "a drop of NaN g".
+func TestImplausibleValues(t *testing.T) {
+	s := Series{}
+	for i := 0; i < 100; i++ {
+		s.TimeH = append(s.TimeH, float64(i)/60)
+		s.Value = append(s.Value, 200-float64(i)*0.5)
+	}
+	s.Value[50] = 1e308
+	s.Value[60] = -1e308
+	r, err := Analyze(s, NewSetup(), Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r.RejectedBy["implausible"] != 1 || r.RejectedBy["not_positive"] != 1 {
+		t.Errorf("rejected %v", r.RejectedBy)
+	}
+	for _, st := range r.SuspectedRemovals {
+		if math.IsNaN(st.MassG) || math.IsInf(st.MassG, 0) {
+			t.Errorf("a drop of %v g", st.MassG)
+		}
+	}
+	if math.IsNaN(r.FinalMassG) {
+		t.Error("final mass NaN")
+	}
+}

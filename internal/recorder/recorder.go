@@ -19,6 +19,11 @@ import (
 // Source is anything that delivers batches of events until ctx ends: the
 // serial, file and demo sources. It returns nil when it ends normally (a
 // demo run that finished) and an error when it cannot start.
+// Appender is where events go: a session log's writer.
+type Appender interface {
+	Append(e *session.Event) error
+}
+
 type Source interface {
 	Run(ctx context.Context, out chan<- []ingest.Event) error
 }
@@ -47,7 +52,7 @@ type Stats struct {
 
 // Recorder writes events to a session log.
 type Recorder struct {
-	Log   *session.Writer
+	Log   Appender
 	Stall time.Duration
 	Now   func() time.Time
 	// OnBatch, when set, gets every batch after it is written (for the
@@ -98,11 +103,7 @@ func (r *Recorder) Write(batch []ingest.Event) error {
 					return err
 				}
 			}
-			if r.stats.Readings == 0 {
-				r.stats.FirstT = e.T
-			}
-			r.stats.Readings++
-			r.stats.LastMassG, r.stats.LastT, r.stats.LastSeen = e.MassG, e.T, now
+
 		case ingest.KindNote:
 			continue // notes in a followed log stay in that log
 		case ingest.KindPosition:
@@ -138,6 +139,15 @@ func (r *Recorder) Write(batch []ingest.Event) error {
 		}
 		if err := r.Log.Append(&ev); err != nil {
 			return err
+		}
+		if e.Kind == ingest.KindReading {
+			// Counted once on disk: a reading whose write failed (a full
+			// disk) is not reported as kept.
+			if r.stats.Readings == 0 {
+				r.stats.FirstT = e.T
+			}
+			r.stats.Readings++
+			r.stats.LastMassG, r.stats.LastT, r.stats.LastSeen = e.MassG, e.T, now
 		}
 	}
 	return nil

@@ -63,7 +63,7 @@ func TestStallAndResume(t *testing.T) {
 	if r.Stats().Stalled {
 		t.Fatal("still stalled after a reading")
 	}
-	r.Log.Sync()
+	r.Log.(*session.Writer).Sync()
 	if got := sources(t, path); len(got) != 2 || got[0] != "stalled" || got[1] != "resumed" {
 		t.Fatalf("source events %v, want [stalled resumed]", got)
 	}
@@ -91,5 +91,33 @@ func TestUnparseableFloodIsLimited(t *testing.T) {
 	}
 	if n > 2*noisyPerMinute || suppressed != 1 || r.Stats().Unparseable != 601 {
 		t.Fatalf("%d unparseable written, %d suppressed events, %d counted", n, suppressed, r.Stats().Unparseable)
+	}
+}
+
+// fullAfter is a log whose disk fills after n lines.
+type fullAfter struct{ n int }
+
+func (f *fullAfter) Append(*session.Event) error {
+	if f.n == 0 {
+		return session.ErrDiskFull
+	}
+	f.n--
+	return nil
+}
+
+// Issue 9, case 12: on a full disk the count of readings kept is the
+// count on disk, not one more.
+func TestDiskFullCountsWhatIsKept(t *testing.T) {
+	c := &clock{t: time.Date(2026, 12, 2, 8, 0, 0, 0, time.UTC)}
+	r := &Recorder{Log: &fullAfter{n: 3}, Now: c.now}
+	var batch []ingest.Event
+	for i := 0; i < 5; i++ {
+		batch = append(batch, ingest.Event{T: c.t.Add(time.Duration(i) * time.Second), Kind: ingest.KindReading, MassG: 100})
+	}
+	if err := r.Write(batch); err == nil {
+		t.Fatal("no error from a full disk")
+	}
+	if got := r.Stats().Readings; got != 3 {
+		t.Errorf("%d readings counted as kept, want the 3 written", got)
 	}
 }
