@@ -88,9 +88,15 @@ func TestReportHostileInput(t *testing.T) {
 	if code != 1 || !strings.Contains(stderr, "not a file") {
 		t.Errorf("report /dev/zero: exit %d, %q", code, stderr)
 	}
-	write("binary.csv", "elapsed_s,mass_g\n0,1\n\x00\x01\x02")
+	write("binary.csv", "\x00\x01\x02\x89PNG\n")
 	if stderr, code, _ = runMeasured(t, dir, 30*time.Second, "report", "binary.csv"); code != 1 || !strings.Contains(stderr, "binary") {
 		t.Errorf("binary input: exit %d, %q", code, stderr)
+	}
+	// The zero-filled tail a crash can leave: that line is skipped and
+	// named, the readings before it count.
+	write("zerotail.csv", "elapsed_s,mass_g\n", rows.String(), strings.Repeat("\x00", 5000))
+	if m := reportJSON(t, dir, "zerotail.csv"); num(t, m, "readings") != 50 || !strings.Contains(strings.Join(toStrings(m["warnings"]), "|"), "line 52 holds NUL bytes") {
+		t.Errorf("zero-filled tail: %v readings, warnings %v", m["readings"], m["warnings"])
 	}
 
 	// A session log with readings dated year 0 and year 9999: the rest is

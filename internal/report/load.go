@@ -144,6 +144,16 @@ func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions) (*Run,
 	for {
 		raw, long, err := lr.Next()
 		lineNo = lr.No
+		if errors.Is(err, textline.ErrBinary) {
+			if tb == nil {
+				return nil, fmt.Errorf("%s: %w: expected a CSV with a header row", path, err)
+			}
+			skipped++
+			if skipped <= 10 {
+				run.Warnings = append(run.Warnings, fmt.Sprintf("%s: %v, skipped", path, err))
+			}
+			continue
+		}
 		if err != nil && err != io.EOF {
 			return nil, fmt.Errorf("%s: %w", path, err)
 		}

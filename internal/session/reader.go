@@ -220,10 +220,14 @@ func (d *Decoder) scan(lr *textline.Reader, name string, fn func(e *Event, fast 
 			warn("%s: line %d: %d bytes long, over the %d-byte limit, skipped", name, lineNo, long, MaxLineBytes)
 			continue
 		}
-		if err != nil && err != io.EOF {
-			if errors.Is(err, textline.ErrBinary) {
-				return fmt.Errorf("%s: %w", name, err)
+		if errors.Is(err, textline.ErrBinary) {
+			if lineNo == 1 {
+				return fmt.Errorf("%s: %w: %v", name, ErrNotSession, err)
 			}
+			warn("%s: %v, skipped (a crash can leave zeros at the end of a file)", name, err)
+			continue
+		}
+		if err != nil && err != io.EOF {
 			return fmt.Errorf("read %s: %w", name, err)
 		}
 		if len(line) == 0 {

@@ -1,6 +1,6 @@
 // Package textline reads lines of text with a bound on their length, so
-// that a file with one enormous line (or none: /dev/zero) cannot take the
-// memory of the machine recording a run.
+// that a file with one enormous line cannot take the memory of the machine
+// recording a run.
 package textline
 
 import (
@@ -20,8 +20,10 @@ type Reader struct {
 	long []byte
 }
 
-// ErrBinary is returned when a file holds NUL bytes: not text.
-var ErrBinary = errors.New("holds NUL bytes: a binary file, not text")
+// ErrBinary marks a line holding NUL bytes: not text (a binary file, or the
+// zero-filled tail a crash can leave). The line is consumed; reading can go
+// on.
+var ErrBinary = errors.New("holds NUL bytes: binary, not text")
 
 // NewReader reads r with lines of at most max bytes.
 func NewReader(r io.Reader, max int) *Reader {
@@ -34,37 +36,40 @@ func (r *Reader) Peek(n int) []byte {
 	return b
 }
 
-// Next returns the next line (valid until the next call) with its terminator ("\n"; the last line may
-// have none). skipped is the length of a line over Max that was passed over
-// (its text is not returned); err is io.EOF at the end. A line holding a
-// NUL byte gives ErrBinary.
+// Next returns the next line (valid until the next call) with its
+// terminator ("\n"; the last line may have none). skipped is the length of
+// a line over Max that was passed over (its text is not returned); err is
+// io.EOF at the end, or wraps ErrBinary for a line with NUL bytes.
 func (r *Reader) Next() (line []byte, skipped int64, err error) {
 	r.long = r.long[:0]
+	binary := false
+	var n int64
 	for {
-		part, err := r.br.ReadSlice('\n')
-		if bytes.IndexByte(part, 0) >= 0 {
+		part, rerr := r.br.ReadSlice('\n')
+		n += int64(len(part))
+		binary = binary || bytes.IndexByte(part, 0) >= 0
+		if rerr == nil && n == int64(len(part)) && !binary && len(part) <= r.Max {
 			r.No++
-			return nil, 0, fmt.Errorf("line %d %w", r.No, ErrBinary)
+			return part, 0, nil // the common case, without a copy
 		}
-		if err == nil && skipped == 0 && len(r.long) == 0 && len(part) <= r.Max {
-			r.No++
-			return part, 0, nil // the common case, without a copy: valid until the next call
-		}
-		if skipped > 0 || len(r.long)+len(part) > r.Max {
-			skipped += int64(len(r.long) + len(part))
-			r.long = r.long[:0]
-		} else {
+		if !binary && skipped == 0 && len(r.long)+len(part) <= r.Max {
 			r.long = append(r.long, part...)
+		} else {
+			skipped = n
+			r.long = r.long[:0]
 		}
-		if errors.Is(err, bufio.ErrBufferFull) {
+		if errors.Is(rerr, bufio.ErrBufferFull) {
 			continue
 		}
-		if len(r.long) == 0 && skipped == 0 && err != nil {
-			return nil, 0, err
+		if n == 0 && rerr != nil {
+			return nil, 0, rerr
 		}
 		r.No++
-		if skipped > 0 {
-			return nil, skipped, nil
+		switch {
+		case binary:
+			return nil, 0, fmt.Errorf("line %d %w", r.No, ErrBinary)
+		case skipped > 0:
+			return nil, n, nil
 		}
 		return r.long, 0, nil
 	}
