@@ -251,3 +251,19 @@ func TestFollowRefusesDevices(t *testing.T) {
 		t.Errorf("record --follow /dev/zero: exit %d, %q", code, stderr)
 	}
 }
+
+// Issue 9, case 1, as reported: a first row late in time crashed the
+// spike filter (index out of range).
+func TestReportFirstRowLate(t *testing.T) {
+	dir := t.TempDir()
+	var b strings.Builder
+	b.WriteString("elapsed_s,mass_g\n500,200\n")
+	for i := 0; i < 100; i++ {
+		fmt.Fprintf(&b, "%d,%.2f\n", i*10, 199-0.1*float64(i))
+	}
+	os.WriteFile(filepath.Join(dir, "late.csv"), []byte(b.String()), 0o644)
+	m := reportJSON(t, dir, "late.csv")
+	if by, _ := m["rejected_by"].(map[string]any); by["out_of_order"] != 1.0 {
+		t.Errorf("rejected %v, want the late first row out of order", m["rejected_by"])
+	}
+}
