@@ -128,6 +128,9 @@ func ParseLine(s string, noUnit Unit) Line {
 	if noUnit <= 0 {
 		noUnit = Gram
 	}
+	if strings.TrimSpace(s) == "" {
+		return Line{Kind: LineBlank}
+	}
 	if why := notBalanceText(s); why != "" {
 		return Line{Kind: LineUnparseable, Reason: why}
 	}
