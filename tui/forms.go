@@ -3,6 +3,7 @@ package tui
 import (
 	"fmt"
 	"math"
+	"sort"
 	"strconv"
 	"strings"
 
@@ -177,12 +178,17 @@ func (m Model) saveSetup() (tea.Model, tea.Cmd) {
 // rebuildLive replays the readings through a Live with the new setup.
 func (m *Model) rebuildLive() {
 	m.live = kinetics.NewLive(m.setup)
+	var rem []removalAt
+	for _, n := range m.notes {
+		if n.kind == kindRemoved && n.value > 0 {
+			rem = append(rem, removalAt{n.elapsedH, n.value})
+		}
+	}
+	sort.Slice(rem, func(i, j int) bool { return rem[i].h < rem[j].h })
 	j := 0
 	for i := range m.th {
-		for j < len(m.notes) && m.notes[j].elapsedH <= m.th[i] {
-			if m.notes[j].kind == kindRemoved && m.notes[j].value > 0 {
-				m.live.Remove(m.notes[j].value)
-			}
+		for j < len(rem) && rem[j].h <= m.th[i] {
+			m.live.Remove(rem[j].g)
 			j++
 		}
 		p := m.live.Add(m.th[i], m.raw[i], m.stable[i])
@@ -191,4 +197,5 @@ func (m *Model) rebuildLive() {
 			m.lastGood = p
 		}
 	}
+	m.pendingRemovals = rem[j:]
 }

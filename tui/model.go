@@ -3,6 +3,7 @@ package tui
 import (
 	"fmt"
 	"math"
+	"sort"
 	"strconv"
 	"strings"
 	"time"
@@ -117,16 +118,22 @@ type Model struct {
 	moistView int // 0 mass, 1 wet basis, 2 dry basis, 3 moisture ratio
 	rateView  int // 0 against time, 1 against moisture
 
-	mode     mode
-	input    textinput.Model
-	pending  *session.Event // the note being typed or written
-	retry    string         // text of a note whose write failed, offered again by n
-	menuPos  int
-	form     setupForm
-	flash    string
-	errMsg   string
-	rang     bool // the target bell has rung
-	accepted map[float64]bool
+	mode    mode
+	input   textinput.Model
+	pending *session.Event // the note being typed or written
+	retry   string         // text of a note whose write failed, offered again by n
+	// suspectAt is the time of the suspected drop being confirmed (a), NaN
+	// otherwise.
+	suspectAt float64
+	// pendingRemovals are removals noted for after the newest reading, in
+	// time order: the live figures take them when a later reading comes.
+	pendingRemovals []removalAt
+	menuPos         int
+	form            setupForm
+	flash           string
+	errMsg          string
+	rang            bool // the target bell has rung
+	accepted        map[float64]bool
 }
 
 // New makes the dashboard.
@@ -155,8 +162,12 @@ func New(opt Options) Model {
 	}
 	m.lastGood = m.livePt
 	m.flash = opt.Notice
+	m.suspectAt = math.NaN()
 	return m
 }
+
+// removalAt is a piece removed: when, and how many grams.
+type removalAt struct{ h, g float64 }
 
 // Init starts reading the source and the clock.
 func (m Model) Init() tea.Cmd {
@@ -238,6 +249,10 @@ func (m *Model) addEvents(b []ingest.Event) {
 			m.stable = append(m.stable, st)
 			m.air = append(m.air, airOf(e.Channels))
 			m.lastT, m.seen = e.T, now
+			for len(m.pendingRemovals) > 0 && m.pendingRemovals[0].h <= h {
+				m.live.Remove(m.pendingRemovals[0].g)
+				m.pendingRemovals = m.pendingRemovals[1:]
+			}
 			m.livePt = m.live.Add(h, e.MassG, st)
 			if m.livePt.Kept {
 				m.lastGood = m.livePt
@@ -468,7 +483,7 @@ func (m *Model) newNote(kind, text string, value float64) *session.Event {
 func (m Model) typing(k tea.KeyMsg) (tea.Model, tea.Cmd) {
 	switch k.Type {
 	case tea.KeyEsc:
-		m.mode, m.pending = modeNormal, nil
+		m.mode, m.pending, m.suspectAt = modeNormal, nil, math.NaN()
 		m.input.Blur()
 		return m, nil
 	case tea.KeyEnter:
@@ -482,7 +497,15 @@ func (m Model) typing(k tea.KeyMsg) (tea.Model, tea.Cmd) {
 			}
 			m.mode = modeNormal
 			m.input.Blur()
-			return m.saveNote(m.newNote(kind, "", v))
+			e := m.newNote(kind, "", v)
+			if at := m.suspectAt; !math.IsNaN(at) && kind == kindRemoved {
+				// a suspected drop confirmed: the removal is at the drop
+				m.accepted[at] = true
+				e.Text = "confirmed from a suspected drop"
+				e.ReadingT = m.start.Add(time.Duration(at * float64(time.Hour)))
+			}
+			m.suspectAt = math.NaN()
+			return m.saveNote(e)
 		}
 		if text == "" {
 			m.mode, m.pending = modeNormal, nil
@@ -582,7 +605,14 @@ func (m *Model) addNote(e session.Event) {
 	n := noteItem{elapsedH: h, at: e.T, kind: e.Kind, text: e.Text, value: valueOf(e.Value)}
 	m.notes = append(m.notes, n)
 	if e.Kind == kindRemoved && n.value > 0 {
-		m.live.Remove(n.value)
+		// Applied at its own time, as the report does: replayed when it is
+		// in the past, held for the next reading when it is not.
+		if len(m.th) > 0 && h <= m.th[len(m.th)-1] {
+			m.rebuildLive()
+		} else {
+			m.pendingRemovals = append(m.pendingRemovals, removalAt{h, n.value})
+			sort.Slice(m.pendingRemovals, func(i, j int) bool { return m.pendingRemovals[i].h < m.pendingRemovals[j].h })
+		}
 	}
 	m.dirty = true
 }
@@ -597,10 +627,13 @@ func (m Model) acceptSuspected() (tea.Model, tea.Cmd) {
 		if m.accepted[s.ElapsedH] {
 			continue
 		}
-		m.accepted[s.ElapsedH] = true
-		e := m.newNote(kindRemoved, "confirmed from a suspected drop", math.Round(s.MassG*100)/100)
-		e.ReadingT = m.start.Add(time.Duration(s.ElapsedH * float64(time.Hour)))
-		return m.saveNote(e)
+		// Ask for the grams (the piece may be weighed), the estimate ready.
+		next, cmd := m.startNote(kindRemoved, fmt.Sprintf("grams removed at %s (estimate; Enter to keep): ", fmtHM(s.ElapsedH)), true)
+		mm := next.(Model)
+		mm.input.SetValue(strconv.FormatFloat(math.Round(s.MassG*100)/100, 'f', -1, 64))
+		mm.input.CursorEnd()
+		mm.suspectAt = s.ElapsedH
+		return mm, cmd
 	}
 	m.flash = "no suspected removal to confirm"
 	return m, nil

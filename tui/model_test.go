@@ -423,3 +423,55 @@ func TestReadingsBackInTime(t *testing.T) {
 		t.Error("no figures")
 	}
 }
+
+// scenarioEvents are the readings of an invented scenario as source events.
+func scenarioEvents(t *testing.T, sc simulate.Scenario, hours float64) []ingest.Event {
+	t.Helper()
+	mod, err := simulate.NewModel(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var out []ingest.Event
+	mod.Run(1, func(s simulate.Sample) bool {
+		if s.ElapsedS/3600 > hours {
+			return false
+		}
+		out = append(out, ingest.Event{T: start.Add(time.Duration(s.ElapsedS * 1e9)), Kind: ingest.KindReading, MassG: s.MassG, Stable: ingest.Stable})
+		return true
+	})
+	return out
+}
+
+// Issue 10, cases 1 and 5: after two unannounced drops the figures follow
+// the newest reading (they froze: the readings after a drop were taken for
+// spikes), the drop is asked about, and `a` asks for the grams with the
+// estimate ready, then applies the removal at the drop.
+func TestUnannouncedDrops(t *testing.T) {
+	sc := simulate.AppleRings()
+	sc.InitialMassG, sc.Doors = 60, nil
+	sc.Removals = []simulate.Removal{{AtH: 3, MassG: 4.2}, {AtH: 5, MassG: 3.0}}
+	sink := &memSink{}
+	m := newTestModel(sink, start.Add(6*time.Hour))
+	m = step(t, m, tea.WindowSizeMsg{Width: 100, Height: 30})
+	m = step(t, m, eventsMsg(scenarioEvents(t, sc, 6)))
+	if !m.livePt.Kept || m.lastGood.SmoothG > 25 {
+		t.Fatalf("the live figures froze: newest kept %v, smoothed %.2f g", m.livePt.Kept, m.lastGood.SmoothG)
+	}
+	v := plain(m.View())
+	if !strings.Contains(v, "? DROP of 4.") || !strings.Contains(v, "at 3:00 h") {
+		t.Fatalf("the first drop is not asked about:\n%s", v)
+	}
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("a")})
+	if m.mode != modeNumber || !strings.HasPrefix(m.input.Value(), "4.") {
+		t.Fatalf("a: mode %v, input %q (want the grams asked, the estimate ready)", m.mode, m.input.Value())
+	}
+	m.input.SetValue("4.2")
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyEnter})
+	if len(sink.events) != 1 || sink.events[0].Kind != kindRemoved || *sink.events[0].Value != 4.2 ||
+		math.Abs(sink.events[0].ReadingT.Sub(start).Hours()-3) > 0.01 {
+		t.Fatalf("saved %+v, want a 4.2 g removal at 3:00 h", sink.events)
+	}
+	if v := plain(m.View()); !strings.Contains(v, "at 5:00 h") {
+		t.Errorf("the second drop is not asked about next:\n%s", v)
+	}
+}

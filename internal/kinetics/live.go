@@ -58,7 +58,15 @@ type Live struct {
 	noiseAt     int
 	lastRate    float64
 	plateauFrom float64 // net mass when the rate came within tolerance of its peak
+	seg         int     // kept readings before the current segment (a step starts one)
+	pendT       []float64
+	pendM       []float64 // readings off the trend in a row: a step if they agree
 }
+
+// stepConfirm is how many readings in a row, off the trend but agreeing
+// with each other, make a step (a piece removed, the rack moved): the
+// readings after a step are data, not spikes.
+const stepConfirm = 6
 
 // NewLive starts a live estimate with a setup (dry solids from the initial
 // moisture or dry mass as in Analyze; removals can be added with Remove).
@@ -104,28 +112,72 @@ func (l *Live) Add(tH, massG float64, stable int8) LivePoint {
 	}
 	// A spike: far from where the recent readings, carried on at their
 	// rate, put this one.
-	if l.n >= 10 {
-		pred, _, ok := l.fit(tH, min(l.n, 30), 1)
+	if l.n-l.seg >= 10 {
+		pred, _, ok := l.fit(tH, min(l.n-l.seg, 30), 1)
 		if ok && math.Abs(net-pred) > math.Max(8*l.noise(), 0.05*math.Max(net, 1)) {
-			p.Reject = RejSpike
-			return p
+			l.pendT, l.pendM = append(l.pendT, tH), append(l.pendM, net)
+			if !l.stepped(net) {
+				p.Reject = RejSpike
+				return p
+			}
+		} else {
+			l.pendT, l.pendM = l.pendT[:0], l.pendM[:0]
 		}
 	}
-	if l.n >= 2 {
+	if l.n-l.seg >= 2 {
 		_, m1 := l.at(0)
 		_, m2 := l.at(1)
 		l.d2[l.nd2%liveWindow] = math.Abs(net - 2*m1 + m2)
 		l.nd2++
 	}
+	l.keep(tH, net)
+	p.Kept = true
+	p.NoiseSDG = l.noise()
+	l.estimate(&p, tH, net)
+	return p
+}
+
+// stepped reports whether the readings held off the trend are a step: six
+// in a row that agree with each other. Then a new segment starts with them:
+// fits look only after the step, and the moisture follows the new level
+// (the removal question stays with the caller).
+func (l *Live) stepped(net float64) bool {
+	n := len(l.pendM)
+	if n < stepConfirm {
+		return false
+	}
+	lo, hi := l.pendM[0], l.pendM[0]
+	for _, m := range l.pendM {
+		lo, hi = math.Min(lo, m), math.Max(hi, m)
+	}
+	if hi-lo > math.Max(16*l.noise(), 0.02*math.Max(net, 1)) {
+		// scattered, not a new level: keep only the newest few
+		copy(l.pendT, l.pendT[1:])
+		copy(l.pendM, l.pendM[1:])
+		l.pendT, l.pendM = l.pendT[:n-1], l.pendM[:n-1]
+		return false
+	}
+	l.seg = l.n
+	for j := 0; j < n-1; j++ { // the newest is kept by the caller
+		l.keep(l.pendT[j], l.pendM[j])
+	}
+	l.pendT, l.pendM = l.pendT[:0], l.pendM[:0]
+	l.lastRate = math.NaN()
+	return true
+}
+
+// keep adds a kept reading to the window.
+func (l *Live) keep(tH, net float64) {
 	i := l.n % liveWindow
 	l.ring[i], l.ringM[i] = tH, net
 	if l.n == 0 {
 		l.m0 = net
 	}
 	l.n++
-	p.Kept = true
-	p.NoiseSDG = l.noise()
+}
 
+// estimate fills in the live figures for the newest kept reading.
+func (l *Live) estimate(p *LivePoint, tH, net float64) {
 	if math.IsNaN(l.s0) {
 		switch {
 		case !math.IsNaN(l.setup.DryMassG):
@@ -144,15 +196,16 @@ func (l *Live) Add(tH, massG float64, stable int8) LivePoint {
 
 	// Rate: a one-sided quadratic over the recent window, sized as in
 	// SmoothRate from the noise and the current rate.
-	if l.n >= 5 {
-		tFirst, _ := l.at(min(l.n, liveWindow) - 1)
+	seg := min(l.n-l.seg, liveWindow) // readings since the last step
+	if seg >= 5 {
+		tFirst, _ := l.at(seg - 1)
 		span := tH - tFirst
-		dt := span / float64(min(l.n, liveWindow)-1)
+		dt := span / float64(seg-1)
 		// The window follows the rate: the previous live rate guides it
 		// (at first, the mean rate so far).
 		guess := l.lastRate
 		if math.IsNaN(guess) {
-			if _, s, ok := l.fit(tH, min(l.n, liveWindow), 1); ok {
+			if _, s, ok := l.fit(tH, seg, 1); ok {
 				guess = -s
 			}
 		}
@@ -161,7 +214,7 @@ func (l *Live) Add(tH, massG float64, stable int8) LivePoint {
 		// length, so the window is about 2.5 times longer (5h, not 2h).
 		h := RateWindow(guess, math.Max(l.noise(), 1e-4), dt, 3*dt, math.Max(span, 3*dt))
 		k := 0
-		for k < min(l.n, liveWindow) {
+		for k < seg {
 			tk, _ := l.at(k)
 			if tH-tk > 5*h {
 				break
@@ -169,7 +222,7 @@ func (l *Live) Add(tH, massG float64, stable int8) LivePoint {
 			k++
 		}
 		k = max(k, 5)
-		if v, s, ok := l.fit(tH, min(k, l.n), 2); ok {
+		if v, s, ok := l.fit(tH, min(k, seg), 2); ok {
 			p.SmoothG, p.RateGPH = v, -s
 			l.lastRate = -s
 		}
@@ -183,7 +236,6 @@ func (l *Live) Add(tH, massG float64, stable int8) LivePoint {
 		}
 	}
 	p.Period = l.advance(l.period(tH, p.RateGPH, net))
-	return p
 }
 
 // fit is a local polynomial over the newest k kept readings, at t. Long

@@ -33,6 +33,14 @@ type Scenario struct {
 	AirTempC          float64
 	AirNoiseC         float64
 	Doors             []Door
+	// Removals are pieces taken out during the run (announced or not):
+	// each takes its grams of product at the moisture of the rest.
+	Removals []Removal
+}
+
+// Removal is a piece of MassG grams taken off the rack at AtH hours.
+type Removal struct {
+	AtH, MassG float64
 }
 
 // Door is a door opening: the operator reaches in, the balance sees a hand
@@ -148,8 +156,21 @@ func (m *Model) MoistureDB(h float64) float64 {
 	return m.s.EquilibriumDB + (m.xStart-m.s.EquilibriumDB)*kinetics.PlaneSheetMR(fo)
 }
 
-// MassG is the true product mass at elapsed hours h.
-func (m *Model) MassG(h float64) float64 { return m.drySolid * (1 + m.MoistureDB(h)) }
+// MassG is the true product mass at elapsed hours h, after the pieces
+// removed by then.
+func (m *Model) MassG(h float64) float64 { return m.SolidsAt(h) * (1 + m.MoistureDB(h)) }
+
+// SolidsAt is the dry solids on the balance at elapsed hours h: each
+// removal takes its share of them.
+func (m *Model) SolidsAt(h float64) float64 {
+	s := m.drySolid
+	for _, r := range m.s.Removals {
+		if h >= r.AtH {
+			s *= 1 - r.MassG/(s*(1+m.MoistureDB(r.AtH)))
+		}
+	}
+	return s
+}
 
 // Sample is one balance reading of a simulated run.
 type Sample struct {
