@@ -16,6 +16,7 @@ import (
 
 	"parch/internal/ingest"
 	"parch/internal/kinetics"
+	"parch/internal/report"
 	"parch/internal/session"
 )
 
@@ -68,6 +69,7 @@ const (
 	stateStalled = "stalled"
 	stateLost    = "lost"
 	stateEnded   = "ended"
+	stateStopped = "stopped" // the recording stopped
 )
 
 type noteItem struct {
@@ -113,6 +115,7 @@ type Model struct {
 	stateSince  time.Time
 	stateDetail string
 	stopped     bool // the recording stopped on an error: said in the alerts
+	warnAt      int  // readings when the last source warning came (-1: none)
 	problems    int
 
 	moistView int // 0 mass, 1 wet basis, 2 dry basis, 3 moisture ratio
@@ -128,6 +131,7 @@ type Model struct {
 	// pendingRemovals are removals noted for after the newest reading, in
 	// time order: the live figures take them when a later reading comes.
 	pendingRemovals []removalAt
+	noteSeen        map[string]bool // notes on the timeline, by time, kind, text and value
 	menuPos         int
 	form            setupForm
 	flash           string
@@ -163,6 +167,7 @@ func New(opt Options) Model {
 	m.lastGood = m.livePt
 	m.flash = opt.Notice
 	m.suspectAt = math.NaN()
+	m.warnAt = -1
 	return m
 }
 
@@ -207,7 +212,7 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 		cmds = append(cmds, m.checkBell())
 		return m, tea.Batch(cmds...)
 	case eventsClosedMsg:
-		if m.state != stateEnded {
+		if m.state != stateEnded && m.state != stateStopped {
 			m.state, m.stateSince = stateEnded, m.opt.Now()
 			m.stateDetail = "the source has ended"
 		}
@@ -257,7 +262,7 @@ func (m *Model) addEvents(b []ingest.Event) {
 			if m.livePt.Kept {
 				m.lastGood = m.livePt
 			}
-			if m.state != stateLive && m.state != stateEnded {
+			if m.state != stateLive && m.state != stateEnded && m.state != stateStopped {
 				m.state, m.stateSince, m.stateDetail = stateLive, now, ""
 			}
 			m.dirty = true
@@ -266,11 +271,20 @@ func (m *Model) addEvents(b []ingest.Event) {
 		case ingest.KindBack:
 			m.state, m.stateSince, m.stateDetail = stateLive, now, e.Detail
 		case ingest.KindStopped:
-			m.problems++
-			m.state, m.stateSince, m.stateDetail, m.stopped = stateEnded, now, e.Detail, true
+			m.state, m.stateSince, m.stateDetail = stateStopped, now, e.Detail
+			// a recorder that failed says why in the alerts
+			m.stopped = !strings.HasPrefix(e.Detail, "the recording stopped")
+		case ingest.KindStarted:
+			if m.state == stateStopped || m.state == stateWaiting {
+				m.state, m.stateSince, m.stateDetail, m.stopped = stateWaiting, now, "", false
+			}
+		case ingest.KindSetup:
+			if e.Note != nil {
+				m.applySetup(e.Note.Params)
+			}
 		case ingest.KindWarning, ingest.KindDeviceError, ingest.KindOverload, ingest.KindUnderload:
-			m.problems++
-			m.stateDetail = e.Detail
+			// Said in the alerts until the next reading.
+			m.stateDetail, m.warnAt = e.Detail, len(m.th)
 		case ingest.KindUnparseable, ingest.KindLineCut:
 			m.problems++
 		case ingest.KindNote:
@@ -603,6 +617,16 @@ func (m *Model) addNote(e session.Event) {
 		h = at.Sub(m.start).Hours()
 	}
 	n := noteItem{elapsedH: h, at: e.T, kind: e.Kind, text: e.Text, value: valueOf(e.Value)}
+	// The same note can come twice: saved here, then read back from the log
+	// (a recording dashboard follows its log for notes from other shells).
+	id := fmt.Sprintf("%d|%s|%s|%v", e.T.UnixMilli(), e.Kind, e.Text, n.value)
+	if m.noteSeen[id] {
+		return
+	}
+	if m.noteSeen == nil {
+		m.noteSeen = map[string]bool{}
+	}
+	m.noteSeen[id] = true
 	m.notes = append(m.notes, n)
 	if e.Kind == kindRemoved && n.value > 0 {
 		// Applied at its own time, as the report does: replayed when it is
@@ -637,4 +661,19 @@ func (m Model) acceptSuspected() (tea.Model, tea.Cmd) {
 	}
 	m.flash = "no suspected removal to confirm"
 	return m, nil
+}
+
+// applySetup takes run parameters another process wrote into the log
+// (parch note --set or --unset): the figures are recomputed with them. A
+// set of values that does not validate is left out and said.
+func (m *Model) applySetup(params map[string]any) {
+	next := m.setup
+	report.ApplyEvent(&next, params)
+	if err := next.Validate(); err != nil {
+		m.errMsg = "setup in the log not applied: " + err.Error()
+		return
+	}
+	m.setup = next
+	m.rebuildLive()
+	m.dirty, m.lastRun = true, m.lastRun.AddDate(-1, 0, 0)
 }

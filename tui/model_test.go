@@ -475,3 +475,32 @@ func TestUnannouncedDrops(t *testing.T) {
 		t.Errorf("the second drop is not asked about next:\n%s", v)
 	}
 }
+
+// Issue 10, cases 2 to 4: a source file that is not there yet is waited
+// for, on screen; setup values and a stop written into a followed log by
+// another process reach the dashboard; a stopped recording is never called
+// live or stalled.
+func TestFollowedLogEvents(t *testing.T) {
+	now := start.Add(time.Hour)
+	m := New(Options{Title: "s.jsonl · watching", Notes: &memSink{}, Setup: demoSetup(), AirLow: math.NaN(), AirHigh: math.NaN(),
+		Now: func() time.Time { return now }, TickEvery: -1})
+	m = step(t, m, tea.WindowSizeMsg{Width: 100, Height: 30})
+	m = step(t, m, eventsMsg{{T: start, Kind: ingest.KindWarning, Detail: "waiting for logger.csv to appear (has the logger started?)"}})
+	if v := plain(m.View()); !strings.Contains(v, "… waiting for logger.csv to appear") || strings.Contains(v, "lines not read") {
+		t.Errorf("waiting is not said:\n%s", v)
+	}
+	m = step(t, m, eventsMsg{{T: start, Kind: ingest.KindStarted, Detail: "following logger.csv"}})
+	m = step(t, m, eventsMsg(simEvents(t, 0.9)))
+	set := session.Event{Type: session.TypeSetup, T: start.Add(50 * time.Minute), Params: map[string]any{"target_moisture_wb_pct": 20.0}}
+	m = step(t, m, eventsMsg{{T: set.T, Kind: ingest.KindSetup, Note: &set}})
+	if m.setup.TargetWBPct != 20 {
+		t.Errorf("a setup value from another process: target %v, want 20", m.setup.TargetWBPct)
+	}
+	m = step(t, m, eventsMsg{{T: start.Add(55 * time.Minute), Kind: ingest.KindStopped, Detail: "the recording stopped: recording stopped"}})
+	now = start.Add(3 * time.Hour)
+	m = step(t, m, tickMsg(now))
+	v := plain(m.View())
+	if !strings.Contains(v, "■ stopped") || strings.Contains(v, "STALLED") || strings.Contains(v, "● live") {
+		t.Errorf("a stopped recording:\n%s", v)
+	}
+}

@@ -100,7 +100,7 @@ func fitHeight(s string, h int) string {
 
 func (m *Model) header(w int) string {
 	state := m.state
-	marker := map[string]string{stateWaiting: "…", stateLive: "●", stateStalled: "!", stateLost: "!", stateEnded: "■"}[state]
+	marker := map[string]string{stateWaiting: "…", stateLive: "●", stateStalled: "!", stateLost: "!", stateEnded: "■", stateStopped: "■"}[state]
 	src := marker + " " + state
 	if state == stateLost || state == stateStalled {
 		src += " since " + m.stateSince.Local().Format("15:04:05")
@@ -112,7 +112,7 @@ func (m *Model) header(w int) string {
 	left := m.styles.Title.Render("parch") + "  " + safetext.Terminal(m.opt.Title)
 	right := fmt.Sprintf("%s  %d readings  %d rejected", src, len(m.th), rej)
 	if m.problems > 0 {
-		right += fmt.Sprintf("  %d problem lines", m.problems)
+		right += fmt.Sprintf("  %d lines not read", m.problems)
 	}
 	gap := w - lipgloss.Width(left) - lipgloss.Width(right)
 	if gap < 1 {
@@ -133,7 +133,15 @@ func (m *Model) alerts(w int) string {
 		a = append(a, "! SOURCE LOST since "+m.stateSince.Local().Format("15:04")+": "+safetext.Terminal(m.stateDetail))
 	case stateStalled:
 		a = append(a, "! STALLED: "+safetext.Terminal(m.stateDetail))
-	case stateEnded:
+	case stateWaiting:
+		if m.stateDetail != "" {
+			a = append(a, "… "+safetext.Terminal(m.stateDetail))
+		}
+	case stateLive:
+		if m.warnAt == len(m.th) && m.stateDetail != "" {
+			a = append(a, "! "+safetext.Terminal(m.stateDetail))
+		}
+	case stateStopped:
 		if m.stopped {
 			a = append(a, "! RECORDING STOPPED: "+safetext.Terminal(strings.TrimPrefix(m.stateDetail, "recording stopped: ")))
 		}

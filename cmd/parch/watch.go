@@ -149,6 +149,9 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 		if err != nil {
 			return err
 		}
+		if f, ok := source.(*ingest.Follow); ok {
+			f.WaitForFile = true // the dashboard says it is waiting, and follows the file when it comes
+		}
 		path := src.session
 		if path == "" {
 			path = defaultSessionPath(now)
@@ -221,6 +224,28 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 			}
 			mb.Close()
 			recDone <- err
+		}()
+		// Notes and setup values other processes write into this log (parch
+		// note from another shell) reach this dashboard too.
+		go func() {
+			evs := make(chan []ingest.Event, 4)
+			go (&ingest.Follow{Path: path, Poll: 500 * time.Millisecond}).Run(recCtx, evs)
+			for {
+				select {
+				case <-recCtx.Done():
+					return
+				case b := <-evs:
+					var keep []ingest.Event
+					for _, e := range b {
+						if e.Kind == ingest.KindNote || e.Kind == ingest.KindSetup {
+							keep = append(keep, e)
+						}
+					}
+					if len(keep) > 0 {
+						mb.Put(keep)
+					}
+				}
+			}
 		}()
 		opt.Events, opt.Notes, opt.Recording, opt.Title = mb.Chan(), w, true, filepath.Base(path)+" · "+what
 		finish = func(uiErr error) error {

@@ -22,6 +22,7 @@ const (
 	KindNote        = "note"     // a note in a followed session log (Note is set)
 	KindPosition    = "position" // how far a followed file has been read (Pos is set)
 	KindStopped     = "stopped"  // the recording stopped (a full disk...): Detail says why
+	KindSetup       = "setup"    // run parameters in a followed session log (Note holds the setup event)
 )
 
 // Position is how far a followed file has been read, for resuming after a
@@ -47,7 +48,7 @@ type Event struct {
 	Raw      string             // the text as received, when there was one
 	Channels map[string]float64 // other measured values (air_temp_c, rh_pct...)
 	Detail   string             // for non-readings: what happened, in words
-	Note     *session.Event     // KindNote: the note as the followed log has it
+	Note     *session.Event     // KindNote, KindSetup: the event as the followed log has it
 	Pos      *Position          // KindPosition
 }
 

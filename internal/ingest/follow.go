@@ -36,6 +36,10 @@ type Follow struct {
 	// restart records no row twice.
 	Resume *Position
 	After  time.Time
+	// WaitForFile: a file that does not exist yet is waited for (the
+	// logger may start after parch), with a warning saying so, instead of
+	// an error.
+	WaitForFile bool
 
 	noNotify bool // tests: behave as on a share where no change events arrive
 }
@@ -54,7 +58,26 @@ func (f *Follow) Run(ctx context.Context, out chan<- []Event) error {
 	}
 	st := &followState{f: f, ctx: ctx}
 	if err := st.open(); err != nil {
-		return err
+		if !f.WaitForFile || !errors.Is(err, os.ErrNotExist) {
+			return err
+		}
+		select {
+		case out <- []Event{{T: f.Now(), Kind: KindWarning, Detail: "waiting for " + f.Path + " to appear (has the logger started?)"}}:
+		case <-ctx.Done():
+			return nil
+		}
+		tick := time.NewTicker(f.Poll)
+		defer tick.Stop()
+		for err != nil {
+			select {
+			case <-ctx.Done():
+				return nil
+			case <-tick.C:
+			}
+			if err = st.open(); err != nil && !errors.Is(err, os.ErrNotExist) {
+				return err
+			}
+		}
 	}
 	defer st.close()
 	resumed := st.resume()
@@ -141,7 +164,7 @@ func (st *followState) open() error {
 	file, err := os.Open(st.f.Path)
 	if err != nil {
 		if errors.Is(err, os.ErrNotExist) {
-			return fmt.Errorf("file to follow %s does not exist (yet?): start the logger first or check the path", st.f.Path)
+			return fmt.Errorf("file to follow %s does not exist (yet?): start the logger first or check the path: %w", st.f.Path, os.ErrNotExist)
 		}
 		return fmt.Errorf("follow: %w", err)
 	}
@@ -410,10 +433,19 @@ func (sessionDecoder) decode(lines []string, mtime time.Time) []Event {
 		case session.TypeNote:
 			evs = append(evs, Event{T: e.T, Kind: KindNote, Note: e})
 			continue
+		case session.TypeSetup:
+			evs = append(evs, Event{T: e.T, Kind: KindSetup, Note: e})
+			continue
 		case session.TypeSource:
 			switch e.Event {
 			case session.SourceLost, session.SourceBack:
 				evs = append(evs, Event{T: e.T, Kind: e.Event, Detail: e.Detail})
+			case session.SourceStopped:
+				// The recorder of the followed log stopped: say so, do not
+				// wait for readings that will not come.
+				evs = append(evs, Event{T: e.T, Kind: KindStopped, Detail: "the recording stopped: " + e.Detail})
+			case session.SourceReopened:
+				evs = append(evs, Event{T: e.T, Kind: KindStarted, Detail: e.Detail})
 			}
 			continue
 		case session.TypeReading:

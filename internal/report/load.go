@@ -291,3 +291,27 @@ func truncateNote(s string, n int) string {
 	}
 	return string([]rune(s)[:n-1]) + "…"
 }
+
+// ApplyEvent applies one setup event's values as they stand in a log: a
+// number sets a key, null (parch note --unset) puts it back to its default.
+func ApplyEvent(s *kinetics.Setup, params map[string]any) {
+	def := kinetics.NewSetup()
+	defaults := map[string]float64{
+		KeyTare: def.TareG, KeyInitialMass: def.InitialMassG, KeyInitialMoistureWB: def.InitialMoistureWB,
+		KeyDryMass: def.DryMassG, KeyTargetWB: def.TargetWBPct, KeyTargetDB: def.TargetDB,
+		KeyEquilibriumDB: def.EquilibriumDB, KeyArea: def.AreaM2, KeyThickness: def.ThicknessMM,
+		KeySteadyPct: def.SteadyPct, KeySteadyWindowH: def.SteadyWindowH,
+	}
+	for k, v := range params {
+		switch x := v.(type) {
+		case float64:
+			ApplyParams(s, map[string]float64{k: x})
+		case nil:
+			if d, ok := defaults[k]; ok {
+				ApplyParams(s, map[string]float64{k: d})
+			} else if k == KeyFaces {
+				s.Faces = 0
+			}
+		}
+	}
+}
