@@ -117,12 +117,24 @@ func plot(series [][]float64, w, h int, chars []asciigraph.CharSet, colors []asc
 	if n < 2 || h < 2 {
 		return nil
 	}
+	// asciigraph puts a value on row round(v·r) − round(min·r), rounding
+	// each term apart, so a line can land a row away from the label nearest
+	// its value. Plotted as v − min, every value goes to its nearest row;
+	// the labels add min back.
+	lo, _ := seriesRange(series)
+	shifted := make([][]float64, len(series))
+	for i, sr := range series {
+		shifted[i] = make([]float64, len(sr))
+		for j, v := range sr {
+			shifted[i][j] = v - lo
+		}
+	}
 	opts := []asciigraph.Option{
 		asciigraph.Height(h - 1), asciigraph.Width(len(series[0])), asciigraph.Offset(2), // the label sits in cell 0, the axis in cell 1
-		asciigraph.YAxisValueFormatter(func(v float64) string { return fmt.Sprintf(yfmt, v) }),
+		asciigraph.YAxisValueFormatter(func(v float64) string { return fmt.Sprintf(yfmt, v+lo) }),
 		asciigraph.SeriesChars(chars...), asciigraph.SeriesColors(colors...),
 	}
-	out := asciigraph.PlotMany(series, opts...)
+	out := asciigraph.PlotMany(shifted, opts...)
 	lines := strings.Split(out, "\n")
 	for i, l := range lines {
 		if lipgloss.Width(l) > w {
@@ -236,12 +248,11 @@ func axisLabel(h, step float64) string {
 // projected course and the note marks, in w×h cells.
 func (m *Model) moistureChart(w, h int) []string {
 	view := moistViews[m.moistView]
-	legend := " (m: switch)  ─ data  ╌ target  ═ dry solids  · projected"
+	legend := []string{"─ data", "╌ target", "═ dry solids", "· projected", "", "(m: switch)"}
 	if m.res != nil && m.res.Projection.Reference != nil {
-		legend += "  ∘ reference"
+		legend[4] = "∘ reference"
 	}
-	title := m.styles.Heading.Render(view.name) + m.styles.Dim.Render(legend)
-	lines := []string{truncate(title, w)}
+	lines := []string{m.titleLine(view.name, legend, w)}
 	n := len(m.th)
 	if n < 2 {
 		return append(lines, m.styles.Dim.Render("waiting for readings..."))
@@ -296,6 +307,15 @@ func (m *Model) moistureChart(w, h int) []string {
 	// under the data, the projection last.
 	series := [][]float64{solids, target, ref, data, proj}
 	lo, hi := seriesRange(series)
+	// The target and the dry solids on one row: one line, and the legend
+	// says so (a line must not vanish under another).
+	if !math.IsNaN(target[0]) && !math.IsNaN(solids[0]) && hi > lo {
+		row := func(v float64) int { return int(math.Round((v - lo) / (hi - lo) * float64(rows-1))) }
+		if row(target[0]) == row(solids[0]) {
+			legend[1], legend[2] = "╌ target & dry solids", "" // one row: one line
+			lines[0] = m.titleLine(view.name, legend, w)
+		}
+	}
 	yfmt, labW2 := yFormat(lo, hi) // wider labels (≥ 1000) push the chart one cell: plot cuts it
 	dotted := func(c string) asciigraph.CharSet {
 		return asciigraph.CharSet{Horizontal: c, VerticalLine: ":", ArcDownRight: c, ArcDownLeft: c, ArcUpRight: c, ArcUpLeft: c}
@@ -363,7 +383,10 @@ func (m *Model) rateChart(w, h int) []string {
 	if m.rateView == 1 {
 		name = "drying rate, g/h, against moisture (dry basis)"
 	}
-	lines := []string{truncate(m.styles.Heading.Render(name)+m.styles.Dim.Render(" (v: switch)"), w)}
+	if lipgloss.Width(name) > w {
+		name = strings.Replace(strings.Replace(name, ", g/h, against", " vs", 1), " (dry basis)", "", 1)
+	}
+	lines := []string{m.titleLine(name, []string{"(v: switch)"}, w)}
 	if m.res == nil || m.resN < 10 {
 		return append(lines, m.styles.Dim.Render("waiting for enough readings..."))
 	}
@@ -409,4 +432,35 @@ func (m *Model) rateChart(w, h int) []string {
 		}
 	}
 	return append(lines, m.styles.Dim.Render(strings.TrimRight(string(axis), " ")+" X"))
+}
+
+// titleLine is a chart's name and its legend, with as many legend parts as
+// fit in w cells: a part is shown whole or not at all.
+func (m *Model) titleLine(name string, parts []string, w int) string {
+	line := name
+	for _, p := range parts {
+		if p != "" && lipgloss.Width(line)+2+lipgloss.Width(p) <= w {
+			line += "  " + p
+		}
+	}
+	return m.styles.Heading.Render(name) + m.styles.Dim.Render(strings.TrimPrefix(line, name))
+}
+
+// fitWords shortens plain text to w cells at a word boundary, with "…":
+// a number is shown whole or not at all.
+func fitWords(s string, w int) string {
+	if lipgloss.Width(s) <= w || w < 2 {
+		return s
+	}
+	r := []rune(s)
+	cut := 0
+	for i := range r {
+		if lipgloss.Width(string(r[:i])) > w-1 {
+			break
+		}
+		if r[i] == ' ' {
+			cut = i
+		}
+	}
+	return strings.TrimRight(string(r[:cut]), " ,:") + "…"
 }

@@ -3,6 +3,7 @@ package tui
 import (
 	"errors"
 	"flag"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -182,7 +183,7 @@ func TestReadingsNotesAndFigures(t *testing.T) {
 		t.Fatalf("free note: %+v", sink.events)
 	}
 	v = plain(m.View())
-	for _, want := range []string{"bend test passed", "piece removed 4.20 g", "edges leathery"} {
+	for _, want := range []string{"bend test passed", "piece removed 4.20\u00a0g", "edges leathery"} {
 		if !strings.Contains(v, want) {
 			t.Errorf("notes pane lacks %q", want)
 		}
@@ -502,5 +503,67 @@ func TestFollowedLogEvents(t *testing.T) {
 	v := plain(m.View())
 	if !strings.Contains(v, "■ stopped") || strings.Contains(v, "STALLED") || strings.Contains(v, "● live") {
 		t.Errorf("a stopped recording:\n%s", v)
+	}
+}
+
+// Golden screens of issue 10 at three sizes: a run with a removal, notes
+// written by another process, a stopped recording, the help screen. Every
+// line fits; `go test ./tui -update` rewrites them after a deliberate change.
+func TestGoldenScreens(t *testing.T) {
+	drops := simulate.AppleRings()
+	drops.InitialMassG, drops.Doors = 60, nil
+	drops.Removals = []simulate.Removal{{AtH: 3, MassG: 4.2}}
+	scenes := map[string]func(m Model) Model{
+		"removal": func(m Model) Model {
+			m = step(t, m, eventsMsg(scenarioEvents(t, drops, 4)))
+			m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("a")})
+			return step(t, m, tea.KeyMsg{Type: tea.KeyEnter})
+		},
+		"othernotes": func(m Model) Model {
+			evs := simEvents(t, 4)
+			for i, kind := range []string{"bend_test_failed", "setpoint_changed", "note"} {
+				v := 55.0
+				ev := session.Event{Type: session.TypeNote, T: start.Add(time.Duration(i+1) * time.Hour), Kind: kind, Text: "from another shell", ReadingT: start.Add(time.Duration(i+1) * time.Hour)}
+				if kind == "setpoint_changed" {
+					ev.Value = &v
+				}
+				evs = append(evs, ingest.Event{T: ev.T, Kind: ingest.KindNote, Note: &ev})
+			}
+			return step(t, m, eventsMsg(evs))
+		},
+		"stopped": func(m Model) Model {
+			m = step(t, m, eventsMsg(simEvents(t, 4)))
+			return step(t, m, eventsMsg{{T: start.Add(4 * time.Hour), Kind: ingest.KindStopped, Detail: "the recording stopped: recording stopped with the dashboard"}})
+		},
+		"help": func(m Model) Model {
+			m = step(t, m, eventsMsg(simEvents(t, 1)))
+			return step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("?")})
+		},
+	}
+	for name, scene := range scenes {
+		for _, size := range [][2]int{{80, 24}, {100, 30}, {160, 48}} {
+			file := filepath.Join("testdata", fmt.Sprintf("%s_%dx%d.golden", name, size[0], size[1]))
+			t.Run(file, func(t *testing.T) {
+				m := newTestModel(&memSink{}, start.Add(4*time.Hour))
+				m = step(t, m, tea.WindowSizeMsg{Width: size[0], Height: size[1]})
+				got := plain(scene(m).View())
+				for i, l := range strings.Split(got, "\n") {
+					if lw := lipgloss.Width(l); lw > size[0] {
+						t.Errorf("line %d is %d wide: %q", i, lw, l)
+					}
+				}
+				if updating() {
+					os.WriteFile(file, []byte(got), 0o644)
+					return
+				}
+				want, err := os.ReadFile(file)
+				if err != nil {
+					t.Fatalf("%v (run go test ./tui -update)", err)
+				}
+				if got != string(want) {
+					t.Errorf("screen differs from %s:\n%s", file, got)
+				}
+			})
+		}
 	}
 }

@@ -174,38 +174,58 @@ func (m *Model) figures(w, h int) []string {
 	row := func(label, value string) string {
 		return pad(s.Label.Render(label), 10) + s.Value.Render(value)
 	}
+	// rowFit keeps a value whole: the parts after the first are shown only
+	// where they fit (a number is never cut).
+	rowFit := func(label string, parts ...string) string {
+		v := parts[0]
+		for _, p := range parts[1:] {
+			if p != "" && 10+lipgloss.Width(v)+2+lipgloss.Width(p) <= w {
+				v += "  " + p
+			}
+		}
+		return row(label, v)
+	}
 	var out []string
 	out = append(out, s.Heading.Render("now"))
 	now := m.elapsedNow()
 	if math.IsNaN(now) {
 		return append(out, s.Dim.Render("no readings yet"))
 	}
-	out = append(out, row("elapsed", fmtHM(now)+"  "+s.Dim.Render("from "+m.start.Local().Format("15:04"))))
+	out = append(out, rowFit("elapsed", fmtHM(now), s.Dim.Render("from "+m.start.Local().Format("15:04"))))
 	n := len(m.raw)
-	net := m.raw[n-1] - m.setup.TareG
-	out = append(out, row("mass", fmt.Sprintf("%.2f g", net)))
-	if x := m.moistureNow(); !math.IsNaN(x) {
-		out = append(out, row("moisture", fmt.Sprintf("%.1f %% wb  %.3f db", 100*x/(1+x), x)))
+	// The analysis's figures when it has seen every reading, so the screen
+	// says what parch report says of the same readings; the live estimate
+	// in between.
+	mass, x := m.lastGoodNet(), m.moistureNow()
+	if r := m.res; r != nil && m.resN == n && !math.IsNaN(r.FinalMassG) {
+		mass, x = r.FinalMassG, r.FinalMoistureDB
+	}
+	if math.IsNaN(mass) {
+		mass = m.raw[n-1] - m.setup.TareG
+	}
+	out = append(out, row("mass", fmt.Sprintf("%.2f g", mass)))
+	if !math.IsNaN(x) {
+		out = append(out, rowFit("moisture", fmt.Sprintf("%.1f %% wb", 100*x/(1+x)), fmt.Sprintf("%.3f db", x)))
 	} else {
 		out = append(out, row("moisture", s.Dim.Render("— (u: setup)")))
 	}
 	if r := m.lastGood.RateGPH; !math.IsNaN(r) {
-		v := fmt.Sprintf("%.2f g/h", r)
+		flux := ""
 		if m.setup.AreaM2 > 0 {
-			v += fmt.Sprintf("  %.3f kg/m²h", r/1000/m.setup.AreaM2)
+			flux = fmt.Sprintf("%.3f kg/m²h", r/1000/m.setup.AreaM2)
 		}
-		out = append(out, row("rate", v))
+		out = append(out, rowFit("rate", fmt.Sprintf("%.2f g/h", r), flux))
 	} else {
 		out = append(out, row("rate", "—"))
 	}
-	period := string(m.lastGood.Period)
+	xc := ""
 	if m.res != nil && m.res.ConstantRate != nil && !m.res.ConstantRate.Ongoing && !math.IsNaN(m.res.ConstantRate.CriticalDB) {
-		period += fmt.Sprintf(", Xc %.2f", m.res.ConstantRate.CriticalDB)
+		xc = fmt.Sprintf("Xc %.2f", m.res.ConstantRate.CriticalDB)
 	}
-	out = append(out, row("period", period))
+	out = append(out, rowFit("period", string(m.lastGood.Period), xc))
 	out = append(out, m.projectionLines(row, w)...)
 	if m.res != nil && m.res.Best != nil {
-		out = append(out, row("model", fmt.Sprintf("%s R² %.4f", m.res.Best.Model.Name, m.res.Best.R2)))
+		out = append(out, rowFit("model", m.res.Best.Model.Title, fmt.Sprintf("R² %.4f", m.res.Best.R2)))
 	}
 	if v := m.air[n-1]; !math.IsNaN(v) {
 		out = append(out, row("air", fmt.Sprintf("%.1f °C", v)))
@@ -320,7 +340,7 @@ func (m *Model) notesPane(w, h int) []string {
 	from := max(0, len(m.notes)-(h-1))
 	for _, n := range m.notes[from:] {
 		line := fmt.Sprintf("%8s %s", fmtHM(n.elapsedH), noteLabel(n.kind, n.text, n.value))
-		out = append(out, truncate(line, w))
+		out = append(out, fitWords(line, w))
 	}
 	return out
 }
@@ -339,10 +359,10 @@ func noteLabel(kind, text string, value float64) string {
 	}
 	if !math.IsNaN(value) {
 		switch kind {
-		case kindRemoved:
-			label += fmt.Sprintf(" %.2f g", value)
+		case kindRemoved: // a no-break space: the number keeps its unit when a line is shortened
+			label += fmt.Sprintf(" %.2f\u00a0g", value)
 		case kindSetpoint:
-			label += fmt.Sprintf(" %g °C", value)
+			label += fmt.Sprintf(" %g\u00a0°C", value)
 		default:
 			label += fmt.Sprintf(" %g", value)
 		}
@@ -406,13 +426,13 @@ func (m *Model) fullHelp(w, h int) string {
 	out := []string{m.styles.Heading.Render("parch dashboard: keys"), ""}
 	for _, col := range m.keys.FullHelp() {
 		for _, b := range col {
-			out = append(out, fmt.Sprintf("  %-10s %s", b.Help().Key, b.Help().Desc))
+			out = append(out, fitWords(fmt.Sprintf("  %-10s %s", b.Help().Key, b.Help().Desc), w))
 		}
 	}
-	out = append(out, "",
-		"Notes are stamped with the newest reading's time and written to the session log at once.",
-		"Moisture alone does not make a dried food safe: water activity does. Follow local",
-		"food-safety regulation. Dryers run hot.", "", m.styles.Dim.Render("any key: back"))
+	out = append(out, "")
+	out = append(out, wrapWords("Notes are stamped with the newest reading's time and written to the session log at once. "+
+		"Moisture alone does not make a dried food safe: water activity does. Follow local food-safety regulation. Dryers run hot.", w)...)
+	out = append(out, "", m.styles.Dim.Render("any key: back"))
 	return fitHeight(strings.Join(out, "\n"), h)
 }
 
@@ -423,4 +443,24 @@ func (m *Model) tooSmall(w, h int) string {
 	}
 	out = append(out, truncate(m.styles.Alert.Render(fmt.Sprintf("terminal is %dx%d; the full dashboard needs %dx%d", w, h, minWidth, minHeight)), w))
 	return fitHeight(strings.Join(out, "\n"), h)
+}
+
+// wrapWords breaks plain text into lines of at most w cells.
+func wrapWords(s string, w int) []string {
+	var out []string
+	line := ""
+	for _, word := range strings.Fields(s) {
+		if line != "" && lipgloss.Width(line)+1+lipgloss.Width(word) > w {
+			out = append(out, line)
+			line = ""
+		}
+		if line != "" {
+			line += " "
+		}
+		line += word
+	}
+	if line != "" {
+		out = append(out, line)
+	}
+	return out
 }

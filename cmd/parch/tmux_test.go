@@ -33,7 +33,7 @@ func TestDashboardInTmux(t *testing.T) {
 	}
 	screen := func() string {
 		out, _ := tmux("capture-pane", "-p", "-t", "e2e")
-		return out
+		return strings.ReplaceAll(out, "\u00a0", " ") // the screen keeps a number and its unit together
 	}
 	waitScreen := func(what string, ok func(string) bool) string {
 		t.Helper()
