@@ -55,7 +55,12 @@ func main() {
 }
 
 func run(args []string, stdout, stderr io.Writer) int {
-	if len(args) == 0 || args[0] == "help" || args[0] == "-h" || args[0] == "--help" || args[0] == "-help" {
+	if len(args) == 0 {
+		// No command is a usage error: the list goes to the error stream.
+		printHelp(stderr)
+		return exitUsage
+	}
+	if args[0] == "help" || args[0] == "-h" || args[0] == "--help" || args[0] == "-help" {
 		if len(args) > 1 {
 			return run([]string{args[1], "-h"}, stdout, stderr)
 		}

@@ -167,6 +167,7 @@ func TestCommandLineErrors(t *testing.T) {
 		{"missing port", []string{"record", "--port", "/dev/ttyNOPE7", "--session", "x.jsonl"}, 1, "does not exist"},
 		{"missing follow", []string{"record", "--follow", "nope.csv", "--session", "y.jsonl"}, 1, "does not exist"},
 		{"unknown command", []string{"frobnicate"}, 2, "unknown command"},
+		{"no command", []string{}, 2, "report"}, // issue 10, case 10: a usage error, not success
 		{"note without session", []string{"note", "hello"}, 2, "--session"},
 		{"note removal without grams", []string{"note", "--session", "z.jsonl", "--kind", "piece_removed"}, 2, "--value"},
 		{"note bad kind", []string{"note", "--session", "z.jsonl", "--kind", "Bend Test", "x"}, 2, "--kind"},

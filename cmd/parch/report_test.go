@@ -252,7 +252,7 @@ func TestReportOutFolder(t *testing.T) {
 	}
 	out, _, code := parch(t, dir, append(args, "--format", "csv")...)
 	lines := strings.Split(strings.TrimSpace(out), "\n")
-	if code != 0 || !strings.HasPrefix(lines[0], "elapsed_h,time,mass_g,moisture_wb_pct") || len(lines) != 5762 {
+	if code != 0 || !strings.HasPrefix(lines[0], "elapsed_h,time,mass_g,net_mass_g,moisture_wb_pct") || len(lines) != 5762 {
 		t.Errorf("--format csv: exit %d, %d lines, header %q", code, len(lines), lines[0])
 	}
 }

@@ -181,7 +181,15 @@ func (sf *setupFlags) build(run *report.Run) (kinetics.Setup, error) {
 		return setup, err
 	}
 	report.ApplyParams(&setup, p)
-	setup.Removals = append(run.NoteRemovals(), sf.removed...)
+	// --removed, when given, is the whole list: the log's noted removals
+	// are replaced, not added to (one piece must not count twice).
+	setup.Removals = run.NoteRemovals()
+	if len(sf.removed) > 0 {
+		if n := len(setup.Removals); n > 0 {
+			run.Warnings = append(run.Warnings, fmt.Sprintf("--removed replaced the %d removals noted in the log", n))
+		}
+		setup.Removals = append([]kinetics.Removal(nil), sf.removed...)
+	}
 	if err := setup.Validate(); err != nil {
 		return setup, usagef("%v", err)
 	}

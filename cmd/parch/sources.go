@@ -96,7 +96,7 @@ func (s *sourceFlags) build(now time.Time) (recorder.Source, string, error) {
 		src := &ingest.Serial{Path: s.port, Mode: mode, NoUnit: unit}
 		if s.ask != "" || s.every != 0 {
 			if s.ask == "" || s.every <= 0 {
-				return nil, "", usagef("--ask TEXT and --every DURATION go together (e.g. --ask 'SI\\r\\n' --every 5s)")
+				return nil, "", usagef("--ask TEXT and --every DURATION go together (e.g. --ask '<command from your balance manual>\\r\\n' --every 5s)")
 			}
 			ask, err := ingest.ParseEscapes(s.ask)
 			if err != nil {

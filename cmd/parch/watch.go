@@ -155,6 +155,11 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 		path := src.session
 		if path == "" {
 			path = defaultSessionPath(now)
+			if src.demo {
+				// The demo's log and record go with the user's data, not
+				// into whatever folder (a source tree) it was started in.
+				path = filepath.Join(demoDir(), path)
+			}
 		}
 		var earlier *session.Log
 		if _, err := os.Stat(path); err == nil {
@@ -328,3 +333,21 @@ func anyMap(m map[string]float64) map[string]any {
 type appendOnce string
 
 func (a appendOnce) Append(e *session.Event) error { return session.AppendOnce(string(a), e) }
+
+// demoDir is where `parch demo` keeps its session logs and records:
+// $XDG_DATA_HOME/parch/demo (~/.local/share/parch/demo), or the temporary
+// folder when there is no home.
+func demoDir() string {
+	base := os.Getenv("XDG_DATA_HOME")
+	if base == "" {
+		if home, err := os.UserHomeDir(); err == nil {
+			base = filepath.Join(home, ".local", "share")
+		}
+	}
+	dir := filepath.Join(base, "parch", "demo")
+	if base == "" || os.MkdirAll(dir, 0o755) != nil {
+		dir = filepath.Join(os.TempDir(), "parch-demo")
+		os.MkdirAll(dir, 0o755)
+	}
+	return dir
+}

@@ -15,7 +15,7 @@ import (
 
 // ReadingsHeader is the fixed part of readings.csv's header; flux appears
 // when the tray area is known, then one column per channel.
-var ReadingsHeader = []string{"elapsed_h", "time", "mass_g", "moisture_wb_pct", "moisture_db", "moisture_ratio",
+var ReadingsHeader = []string{"elapsed_h", "time", "mass_g", "net_mass_g", "moisture_wb_pct", "moisture_db", "moisture_ratio",
 	"rate_g_per_h", "rate_per_h_db"}
 
 // Readings writes readings.csv (RFC 4180): every reading as recorded, the
@@ -34,7 +34,9 @@ func Readings(w io.Writer, b *Bundle) error {
 		chans = append(chans, name)
 	}
 	sort.Strings(chans)
-	header = append(header, chans...)
+	for _, c := range chans {
+		header = append(header, safetext.Cell(c))
+	}
 	if err := cw.Write(header); err != nil {
 		return err
 	}
@@ -47,11 +49,14 @@ func Readings(w io.Writer, b *Bundle) error {
 		if i < len(b.Run.TimesMs) && b.Run.TimesMs[i] != 0 {
 			t = time.UnixMilli(b.Run.TimesMs[i]).UTC().Format("2006-01-02T15:04:05.000Z07:00")
 		}
-		raw := math.NaN()
+		raw, net := math.NaN(), math.NaN()
 		if mass {
+			// mass_g as the balance gave it; net_mass_g after the tare, the
+			// mass every moisture figure is computed from
 			raw = b.Run.Series.Value[i]
+			net = raw - b.Setup.TareG
 		}
-		row = append(row, num(b.Run.Series.TimeH[i], 6), t, num(raw, 4), num(p.WBPct[i], 4), num(p.X[i], 6), num(p.MR[i], 6),
+		row = append(row, num(b.Run.Series.TimeH[i], 6), t, num(raw, 4), num(net, 4), num(p.WBPct[i], 4), num(p.X[i], 6), num(p.MR[i], 6),
 			num(massOnly(p.RateG[i], mass), 5), num(p.RateDB[i], 6))
 		if flux {
 			row = append(row, num(p.Flux[i], 6))

@@ -188,7 +188,7 @@ func Markdown(w io.Writer, b *Bundle) error {
 		p("![%s](%s.png)\n\n*%s* (also as [SVG](%s.svg)).\n\n", pl.what, pl.file, pl.what, pl.file)
 	}
 
-	p("## Files\n\n- `readings.csv`: every reading with elapsed time, clock time, mass, moisture (wet and dry basis), moisture ratio, drying rate, why it was left out (if it was), and the other channels.\n- `notes.csv`: the notes.\n- `summary.json`: these figures for programs (the same object as `parch report --format json`, with the setup and the parch version).\n\n")
+	p("## Files\n\n- `readings.csv`: every reading with elapsed time, clock time, mass as read and net of the tare, moisture (wet and dry basis), moisture ratio, drying rate, why it was left out (if it was), and the other channels.\n- `notes.csv`: the notes.\n- `summary.json`: these figures for programs (the same object as `parch report --format json`, with the setup and the parch version).\n\n")
 
 	p("## Cautions\n\n")
 	for _, c := range report.Cautions {

@@ -8,12 +8,12 @@ import (
 )
 
 // USDA FoodData Central, SR Legacy 09004 (apples, raw, without skin):
-// 86.67 g water per 100 g. 100 g dried to 18 % wet basis keeps its 13.33 g
-// of solids: 13.33/0.82 = 16.26 g.
+// 86.67 g water per 100 g. A 243.7 g tray load dried to 18 % wet basis
+// keeps its 32.49 g of solids: 32.485/0.82 = 39.62 g.
 func TestMoistureArithmeticUSDAApple(t *testing.T) {
-	ms := 100 * (1 - 0.8667)
-	if got := MassAtMoisture(ms, 0.18); math.Abs(got-16.26) > 0.005 {
-		t.Errorf("mass at 18 %% wb = %.4f g, want 16.26", got)
+	ms := 243.7 * (1 - 0.8667)
+	if got := MassAtMoisture(ms, 0.18); math.Abs(got-39.616) > 0.005 {
+		t.Errorf("mass at 18 %% wb = %.4f g, want 39.62", got)
 	}
 	x := WetToDry(0.8667)
 	if math.Abs(x-6.502) > 0.001 || math.Abs(DryToWet(x)-0.8667) > 1e-12 {

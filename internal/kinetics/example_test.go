@@ -6,12 +6,12 @@ import (
 	"parch/internal/kinetics"
 )
 
-// Apples at 86.67 % water (USDA SR Legacy, raw, without skin): 100 g dried
-// to 18 % wet basis weighs 16.26 g.
+// Apple slices at 86.67 % water (USDA SR Legacy, raw, without skin): a
+// 243.7 g tray load dried to 18 % wet basis weighs 39.62 g.
 func ExampleMassAtMoisture() {
-	solids := 100 * (1 - 0.8667)
+	solids := 243.7 * (1 - 0.8667)
 	fmt.Printf("%.2f g\n", kinetics.MassAtMoisture(solids, 0.18))
-	// Output: 16.26 g
+	// Output: 39.62 g
 }
 
 // Crank's plane sheet: the mean moisture ratio at Fo = D t / L² = 0.5.
