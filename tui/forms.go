@@ -82,6 +82,7 @@ type setupForm struct {
 	inputs []textinput.Model
 	pos    int
 	err    string
+	fresh  bool // the focused field shows its old value: typing replaces it
 }
 
 func newSetupForm(s kinetics.Setup) setupForm {
@@ -104,6 +105,7 @@ func (f *setupForm) focus() tea.Cmd {
 	for i := range f.inputs {
 		f.inputs[i].Blur()
 	}
+	f.fresh = true
 	return f.inputs[f.pos].Focus()
 }
 
@@ -121,6 +123,10 @@ func (m Model) setupKey(k tea.KeyMsg) (tea.Model, tea.Cmd) {
 	case k.Type == tea.KeyEnter:
 		return m.saveSetup()
 	}
+	if m.form.fresh && k.Type == tea.KeyRunes {
+		m.form.inputs[m.form.pos].SetValue("") // a new value replaces the old one (0 then 5 is 5, not 05)
+	}
+	m.form.fresh = false
 	var cmd tea.Cmd
 	m.form.inputs[m.form.pos], cmd = m.form.inputs[m.form.pos].Update(k)
 	return m, cmd
@@ -165,6 +171,7 @@ func (m Model) saveSetup() (tea.Model, tea.Cmd) {
 		return m, nil
 	}
 	m.setup = next
+	m.setupGen++
 	m.rebuildLive()
 	m.dirty, m.lastRun = true, m.lastRun.AddDate(-1, 0, 0)
 	e := session.Event{Type: session.TypeSetup, T: m.opt.Now(), Params: changed}

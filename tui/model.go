@@ -132,6 +132,8 @@ type Model struct {
 	// time order: the live figures take them when a later reading comes.
 	pendingRemovals []removalAt
 	noteSeen        map[string]bool // notes on the timeline, by time, kind, text and value
+	setupGen        int             // counts setup changes: figures from an older one are stale
+	resGen          int             // the setup generation of res
 	menuPos         int
 	form            setupForm
 	flash           string
@@ -221,7 +223,7 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 	case analysisMsg:
 		m.analysing = false
 		if msg.err == nil && msg.res != nil {
-			m.res, m.resN = msg.res, msg.n
+			m.res, m.resN, m.resGen = msg.res, msg.n, msg.gen
 		} else if msg.err != nil {
 			m.errMsg = "analysis: " + msg.err.Error()
 		}
@@ -232,6 +234,18 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 		m.checkStall(time.Time(msg))
 		return m, tea.Batch(m.tick(), m.maybeAnalyze())
 	case tea.KeyMsg:
+		if m.mode == modeNormal && msg.Type == tea.KeyRunes && len(msg.Runes) > 1 && !msg.Paste {
+			// Keys typed together arrive as one message ("bd"): each is a
+			// key of its own, or one is lost.
+			var cmds []tea.Cmd
+			var next tea.Model = m
+			for _, r := range msg.Runes {
+				var cmd tea.Cmd
+				next, cmd = next.Update(tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune{r}})
+				cmds = append(cmds, cmd)
+			}
+			return next, tea.Batch(cmds...)
+		}
 		return m.key(msg)
 	}
 	return m, nil
@@ -336,17 +350,17 @@ func (m *Model) maybeAnalyze() tea.Cmd {
 	// Prefixes of append-only slices: later appends never touch them.
 	s := kinetics.Series{TimeH: m.th[:n:n], Value: m.raw[:n:n], Stable: m.stable[:n:n]}
 	setup := m.setupWithRemovals()
-	ref := m.opt.Reference
+	ref, gen := m.opt.Reference, m.setupGen
 	return func() (msg tea.Msg) {
 		// The recording runs in this process: a fault in the analysis must
 		// cost the figures, never the record.
 		defer func() {
 			if p := recover(); p != nil {
-				msg = analysisMsg{n: n, setup: setup, err: fmt.Errorf("analysis failed: %v", p)}
+				msg = analysisMsg{n: n, setup: setup, gen: gen, err: fmt.Errorf("analysis failed: %v", p)}
 			}
 		}()
 		res, err := kinetics.Analyze(s, setup, kinetics.Options{Reference: ref})
-		return analysisMsg{res: res, n: n, setup: setup, err: err}
+		return analysisMsg{res: res, n: n, setup: setup, gen: gen, err: err}
 	}
 }
 
@@ -674,6 +688,7 @@ func (m *Model) applySetup(params map[string]any) {
 		return
 	}
 	m.setup = next
+	m.setupGen++
 	m.rebuildLive()
 	m.dirty, m.lastRun = true, m.lastRun.AddDate(-1, 0, 0)
 }

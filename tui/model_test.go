@@ -567,3 +567,33 @@ func TestGoldenScreens(t *testing.T) {
 		}
 	}
 }
+
+// Issue 10, case 8: keys typed together are each a key ("bd" saves two
+// notes); a setup field is replaced by what is typed, not appended to, and
+// the target mass of the old setup is not shown beside the new one.
+func TestKeysTogetherAndSetupTyping(t *testing.T) {
+	sink := &memSink{}
+	m := newTestModel(sink, start.Add(time.Hour))
+	m = step(t, m, tea.WindowSizeMsg{Width: 100, Height: 30})
+	m = step(t, m, eventsMsg(simEvents(t, 0.5)))
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("bf")})
+	if len(sink.events) != 2 || sink.events[0].Kind != kindBendPass || sink.events[1].Kind != kindBendFail {
+		t.Fatalf("keys together: saved %+v", sink.events)
+	}
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("u")})
+	for m.form.pos != 3 { // the tare field
+		m = step(t, m, tea.KeyMsg{Type: tea.KeyTab})
+	}
+	if m.form.inputs[3].Value() != "0" {
+		t.Fatalf("tare shows %q", m.form.inputs[3].Value())
+	}
+	m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("5")})
+	if got := m.form.inputs[3].Value(); got != "5" {
+		t.Errorf("typing 5 over a tare of 0 gives %q, want 5", got)
+	}
+	next, _ := m.Update(tea.KeyMsg{Type: tea.KeyEnter}) // no analysis run yet
+	m = next.(Model)
+	if v := plain(m.View()); !strings.Contains(v, "recomputing") {
+		t.Errorf("the old target mass is shown beside the new tare:\n%s", v)
+	}
+}

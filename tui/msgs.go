@@ -19,6 +19,7 @@ type analysisMsg struct {
 	res   *kinetics.Result
 	n     int
 	setup kinetics.Setup
+	gen   int // the setup generation it was computed with
 	err   error
 }
 

@@ -276,6 +276,11 @@ func (m *Model) projectionLines(row func(string, string) string, w int) []string
 	if math.IsNaN(r.TargetMassG) {
 		return []string{row("target", s.Dim.Render("none set (u: setup)"))}
 	}
+	if m.resGen != m.setupGen {
+		// The setup changed since these figures: say so, do not show a
+		// target mass of the old setup beside the new one.
+		return []string{row("target", fmt.Sprintf("%.1f %%", m.setup.TargetWBPct)+s.Dim.Render(", recomputing…"))}
+	}
 	out := []string{row("target", fmt.Sprintf("%.1f %% = %.2f g", r.TargetMoistureWBPct, r.TargetMassG))}
 	p := r.Projection
 	switch {
