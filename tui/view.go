@@ -116,7 +116,18 @@ func (m *Model) header(w int) string {
 	}
 	gap := w - lipgloss.Width(left) - lipgloss.Width(right)
 	if gap < 1 {
-		return truncate(left+" "+right, w)
+		// The state and counts stay whole; the title gives way.
+		room := w - lipgloss.Width(right) - 1
+		title := safetext.Terminal(m.opt.Title)
+		if room > 8 {
+			r := []rune(title)
+			for len(r) > 0 && lipgloss.Width("parch  "+string(r)+"…") > room {
+				r = r[:len(r)-1]
+			}
+			left = m.styles.Title.Render("parch") + "  " + string(r) + "…"
+			return left + strings.Repeat(" ", max(1, w-lipgloss.Width(left)-lipgloss.Width(right))) + right
+		}
+		return truncate(right, w)
 	}
 	return left + strings.Repeat(" ", gap) + right
 }

@@ -11,6 +11,7 @@ import (
 	"time"
 
 	"parch/internal/session"
+	"parch/internal/simulate"
 )
 
 // The dashboard in a real terminal: tmux runs `parch demo` at 80x24, keys
@@ -164,4 +165,113 @@ func TestWatchAttachedInTmux(t *testing.T) {
 	if err := rec.Wait(); err != nil {
 		t.Fatalf("recorder: %v", err)
 	}
+}
+
+// Issue 10, done when: a logger file created after parch starts, two
+// unannounced drops, a note from `parch note` in another shell, a second
+// dashboard on the log, the recorder quitting. Both screens agree with
+// `parch report` of the log (mass, moisture, target reached or not), the
+// note shows on both, the second says the recording stopped, and no value
+// is cut at 80x24.
+func TestTwoDashboardsAgreeWithReport(t *testing.T) {
+	if _, err := exec.LookPath("tmux"); err != nil {
+		t.Skip("tmux is not installed (.ci/run installs it)")
+	}
+	dir := t.TempDir()
+	logger := filepath.Join(dir, "logger.csv")
+	log := filepath.Join(dir, "s.jsonl")
+	sock := fmt.Sprintf("parch-test-two-%d", os.Getpid())
+	tmux := func(args ...string) string {
+		out, _ := exec.Command("tmux", append([]string{"-L", sock}, args...)...).CombinedOutput()
+		return string(out)
+	}
+	defer tmux("kill-server")
+	screen := func(s string) string {
+		return strings.ReplaceAll(tmux("capture-pane", "-p", "-t", s), "\u00a0", " ")
+	}
+	wait := func(s, what string, limit time.Duration) time.Duration {
+		t.Helper()
+		begin := time.Now()
+		for !strings.Contains(screen(s), what) {
+			if time.Since(begin) > limit {
+				t.Fatalf("%s: timed out waiting for %q:\n%s", s, what, screen(s))
+			}
+			time.Sleep(100 * time.Millisecond)
+		}
+		return time.Since(begin)
+	}
+	tmux("new-session", "-d", "-x", "80", "-y", "24", "-s", "rec", fmt.Sprintf("cd %s && %s watch --follow %s --session %s --initial-moisture 86.5 --target 18; echo REC-EXITED $?; sleep 60", dir, binary, logger, log))
+	wait("rec", "waiting for", 15*time.Second)
+
+	// The logger starts: an invented run with two pieces taken out unsaid.
+	sc := simulate.AppleRings()
+	sc.InitialMassG, sc.Doors, sc.DurationH = 60, nil, 7
+	sc.Removals = []simulate.Removal{{AtH: 3, MassG: 4.2}, {AtH: 5, MassG: 3.0}}
+	mod, err := simulate.NewModel(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t0 := time.Now().Add(-7 * time.Hour).UTC().Truncate(time.Second)
+	var rows []string
+	mod.Run(1, func(s simulate.Sample) bool {
+		rows = append(rows, fmt.Sprintf("%s,%.2f\n", t0.Add(time.Duration(s.ElapsedS)*time.Second).Format(time.RFC3339), s.MassG))
+		return true
+	})
+	f, _ := os.Create(logger)
+	f.WriteString("time,mass_g\n" + strings.Join(rows[:len(rows)*6/7], ""))
+	f.Close()
+	wait("rec", "● live", 20*time.Second)
+
+	tmux("new-session", "-d", "-x", "80", "-y", "24", "-s", "watch", fmt.Sprintf("%s watch --session %s; echo WATCH-EXITED $?; sleep 60", binary, log))
+	wait("watch", "watching", 15*time.Second)
+	if _, stderr, code := parch(t, dir, "note", "--session", log, "--kind", "case_hardening", "from the other shell"); code != 0 {
+		t.Fatal(stderr)
+	}
+	t.Logf("the note reached the recording dashboard in %s, the watching one in %s",
+		wait("rec", "case hardening", 5*time.Second), wait("watch", "case hardening", 5*time.Second))
+
+	f, _ = os.OpenFile(logger, os.O_WRONLY|os.O_APPEND, 0)
+	f.WriteString(strings.Join(rows[len(rows)*6/7:], ""))
+	f.Close()
+	all := fmt.Sprintf("%d readings", len(rows))
+	wait("rec", all, 20*time.Second)
+	wait("watch", all, 20*time.Second)
+	time.Sleep(4 * time.Second) // an analysis of every reading on both screens
+
+	out, stderr, code := parch(t, dir, "report", "--format", "json", log)
+	if code != 0 {
+		t.Fatal(stderr)
+	}
+	var rep struct {
+		Readings      int      `json:"readings"`
+		FinalMassG    float64  `json:"final_mass_g"`
+		FinalWB       float64  `json:"final_moisture_wb_pct"`
+		TargetReached *float64 `json:"target_reached_h"`
+	}
+	json.Unmarshal([]byte(out), &rep)
+	for _, s := range []string{"rec", "watch"} {
+		sc := screen(s)
+		for i, line := range strings.Split(strings.TrimRight(sc, "\n"), "\n") {
+			if len([]rune(line)) > 80 {
+				t.Errorf("%s line %d is wider than 80: %q", s, i, line)
+			}
+		}
+		for _, want := range []string{fmt.Sprintf("mass      %.2f g", rep.FinalMassG), fmt.Sprintf("moisture  %.1f %% wb", rep.FinalWB)} {
+			if !strings.Contains(sc, want) {
+				t.Errorf("%s does not say %q as parch report does:\n%s", s, want, sc)
+			}
+		}
+		if reached := strings.Contains(sc, "TARGET REACHED"); reached != (rep.TargetReached != nil) {
+			t.Errorf("%s: target reached on screen %v, in the report %v", s, reached, rep.TargetReached)
+		}
+		if !strings.Contains(sc, "DROP") {
+			t.Errorf("%s does not ask about the drop:\n%s", s, sc)
+		}
+	}
+
+	tmux("send-keys", "-t", "rec", "q")
+	wait("rec", "Quit?", 5*time.Second)
+	tmux("send-keys", "-t", "rec", "y")
+	wait("rec", "REC-EXITED 0", 20*time.Second)
+	wait("watch", "■ stopped", 5*time.Second)
 }
