@@ -47,6 +47,7 @@ func init() {
 		{"simulate", "write an invented drying run as CSV, for trying the file source", runSimulate},
 		{"watch", "the live dashboard: record a source, or watch a log another parch records", runWatch},
 		{"report", "analyse a session log or a CSV: moisture, rate, periods, models, diffusivity, projection", runReport},
+		{"compare", "several runs side by side: replicates, temperatures, activation energy (Arrhenius)", runCompare},
 	}
 }
 

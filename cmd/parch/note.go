@@ -28,7 +28,7 @@ var noteKinds = []struct{ kind, help string }{
 // setupKeys are the run parameters a session log's setup lines carry.
 var setupKeys = []string{report.KeyInitialMoistureWB, report.KeyDryMass, report.KeyTare, report.KeyInitialMass,
 	report.KeyTargetWB, report.KeyTargetDB, report.KeyEquilibriumDB, report.KeyArea, report.KeyThickness,
-	report.KeyFaces, report.KeySteadyPct, report.KeySteadyWindowH}
+	report.KeyFaces, report.KeySteadyPct, report.KeySteadyWindowH, report.KeyAirTemp}
 
 // setValues collects --set KEY=VALUE.
 type setValues map[string]float64
@@ -51,6 +51,9 @@ func (s *setValues) Set(v string) error {
 	f, err := strconv.ParseFloat(strings.TrimSpace(val), 64)
 	if err != nil || math.IsNaN(f) || math.IsInf(f, 0) {
 		return fmt.Errorf("%s=%q: expected a number", k, val)
+	}
+	if k == report.KeyAirTemp && !(f > -40 && f < 400) {
+		return fmt.Errorf("%s=%q: expected an air temperature in °C, between -40 and 400", k, val)
 	}
 	if *s == nil {
 		*s = setValues{}

@@ -77,6 +77,7 @@ func (sf *setupFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&sf.faces, "faces", 0, "drying faces: 1 on a solid tray, 2 on a mesh (default 2)")
 	num("steady-pct", report.KeySteadyPct, "end of run when the weight changes less than this `PCT` over --steady-window (default 0.5)")
 	num("steady-window", report.KeySteadyWindowH, "window for the end-of-run test, `HOURS` (default 1)")
+	num("air-temp", report.KeyAirTemp, "the dryer's air temperature setpoint, `C` (°C), for a study of several runs (parch compare)")
 	fs.StringVar(&sf.reference, "reference", "", "an earlier run of the same product, `FILE` (a session log with its setup, or a table of moisture or moisture ratio): its drying curve helps the projection")
 }
 
@@ -133,6 +134,9 @@ func (sf *setupFlags) params() (map[string]float64, error) {
 			v := *sf.vals[f.Name]
 			if math.IsNaN(v) || math.IsInf(v, 0) {
 				err = usagef("--%s %v: expected a number", f.Name, v)
+			}
+			if key == report.KeyAirTemp && !(v > -40 && v < 400) {
+				err = usagef("--%s %v: expected an air temperature in °C, between -40 and 400", f.Name, v)
 			}
 			out[key] = v
 		}

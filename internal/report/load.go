@@ -59,6 +59,9 @@ const (
 	KeyFaces             = "faces"
 	KeySteadyPct         = "steady_pct"
 	KeySteadyWindowH     = "steady_window_h"
+	// KeyAirTemp is the dryer's air temperature setpoint, °C (for a study
+	// of several runs).
+	KeyAirTemp = "air_temp_c"
 	// KeyReferenceFile names the reference run (a text value).
 	KeyReferenceFile = "reference_file"
 )
