@@ -295,12 +295,20 @@ func (m *Model) moistureChart(w, h int) []string {
 	if m.res != nil && m.moistView == 0 && !math.IsNaN(m.res.DryMassG) {
 		solids = flat(m.res.DryMassG)
 	}
-	ref := nan
+	ref := flat(math.NaN())
 	if m.res != nil && p.TargetH > now && len(p.Path) >= 2 {
 		proj = m.projected(cols, t1, p.Path)
 	}
-	if u := p.Reference; m.res != nil && u != nil && len(u.Path) >= 2 {
-		ref = m.projected(cols, t1, u.Path)
+	// Reference runs share one dimmed series: where two cross, one shows.
+	for _, u := range append([]*kinetics.ReferenceUse{p.Reference}, p.MoreReferences...) {
+		if m.res == nil || u == nil || len(u.Path) < 2 {
+			continue
+		}
+		for c, v := range m.projected(cols, t1, u.Path) {
+			if !math.IsNaN(v) {
+				ref[c] = v
+			}
+		}
 	}
 	// asciigraph draws in order and a later series covers an earlier one
 	// where they share a cell: the dry solids first, the reference run

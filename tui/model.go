@@ -45,6 +45,8 @@ type Options struct {
 	// Reference is an earlier run of the same product for the projection
 	// (nil: none); its course is drawn dimmed on the moisture chart.
 	Reference *kinetics.Reference
+	// MoreReferences are further earlier runs, drawn dimmed too.
+	MoreReferences []*kinetics.Reference
 	// Notice is shown on the message line at the start (a warning about
 	// the setup, say).
 	Notice string
@@ -350,7 +352,7 @@ func (m *Model) maybeAnalyze() tea.Cmd {
 	// Prefixes of append-only slices: later appends never touch them.
 	s := kinetics.Series{TimeH: m.th[:n:n], Value: m.raw[:n:n], Stable: m.stable[:n:n]}
 	setup := m.setupWithRemovals()
-	ref, gen := m.opt.Reference, m.setupGen
+	ref, more, gen := m.opt.Reference, m.opt.MoreReferences, m.setupGen
 	return func() (msg tea.Msg) {
 		// The recording runs in this process: a fault in the analysis must
 		// cost the figures, never the record.
@@ -359,7 +361,7 @@ func (m *Model) maybeAnalyze() tea.Cmd {
 				msg = analysisMsg{n: n, setup: setup, gen: gen, err: fmt.Errorf("analysis failed: %v", p)}
 			}
 		}()
-		res, err := kinetics.Analyze(s, setup, kinetics.Options{Reference: ref})
+		res, err := kinetics.Analyze(s, setup, kinetics.Options{Reference: ref, MoreReferences: more})
 		return analysisMsg{res: res, n: n, setup: setup, gen: gen, err: err}
 	}
 }

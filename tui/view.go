@@ -309,8 +309,10 @@ func (m *Model) projectionLines(row func(string, string) string, w int) []string
 		} else { // a narrow panel: the range on its own line
 			out = append(out, row("projected", est+" "+s.Dim.Render(left)), row("", rng))
 		}
-		if u := p.Reference; u != nil {
-			out = append(out, row("reference", truncate(fmt.Sprintf("%s, weight %.2f", filepath.Base(u.Name), u.Weight), max(w-10, 8))))
+		for _, u := range append([]*kinetics.ReferenceUse{p.Reference}, p.MoreReferences...) {
+			if u != nil {
+				out = append(out, row("reference", fitWords(fmt.Sprintf("%s, weight %.2f", filepath.Base(u.Name), u.Weight), max(w-10, 8))))
+			}
 		}
 	default:
 		why := p.Why

@@ -99,7 +99,11 @@ func analyse(path string, opt ingest.TableOptions, sf *setupFlags, until float64
 	if err != nil {
 		return nil, err
 	}
-	res, err := kinetics.Analyze(run.Series, setup, kinetics.Options{UntilH: until, Reference: ref})
+	more, err := sf.moreReferences()
+	if err != nil {
+		return nil, err
+	}
+	res, err := kinetics.Analyze(run.Series, setup, kinetics.Options{UntilH: until, Reference: ref, MoreReferences: more})
 	if errors.Is(err, kinetics.ErrNoReadings) {
 		return nil, fmt.Errorf("%s has no readings to analyse", path)
 	}

@@ -23,7 +23,8 @@ type setupFlags struct {
 	removed   removals
 	until     string
 	targetDB  float64
-	reference string             // --reference FILE
+	reference string             // --reference FILE (the first)
+	moreRefs  []string           // --reference given again
 	defaults  map[string]float64 // values used when neither the log nor a flag gives one
 }
 
@@ -78,7 +79,7 @@ func (sf *setupFlags) register(fs *flag.FlagSet) {
 	num("steady-pct", report.KeySteadyPct, "end of run when the weight changes less than this `PCT` over --steady-window (default 0.5)")
 	num("steady-window", report.KeySteadyWindowH, "window for the end-of-run test, `HOURS` (default 1)")
 	num("air-temp", report.KeyAirTemp, "the dryer's air temperature setpoint, `C` (°C), for a study of several runs (parch compare)")
-	fs.StringVar(&sf.reference, "reference", "", "an earlier run of the same product, `FILE` (a session log with its setup, or a table of moisture or moisture ratio): its drying curve helps the projection")
+	fs.Var(referenceFlag{sf}, "reference", "an earlier run of the same product, `FILE` (a session log with its setup, or a table of moisture or moisture ratio): its drying curve helps the projection; repeat for several (the first is the one a recording names in its log)")
 }
 
 // referenceToRecord checks --reference and returns its absolute path, for
@@ -214,4 +215,36 @@ func (sf *setupFlags) check(base map[string]float64) error {
 		return usagef("%v", err)
 	}
 	return nil
+}
+
+// referenceFlag collects --reference FILE, repeatable.
+type referenceFlag struct{ sf *setupFlags }
+
+func (r referenceFlag) String() string {
+	if r.sf == nil {
+		return ""
+	}
+	return strings.Join(append([]string{r.sf.reference}, r.sf.moreRefs...), ",")
+}
+
+func (r referenceFlag) Set(v string) error {
+	if r.sf.reference == "" {
+		r.sf.reference = v
+	} else {
+		r.sf.moreRefs = append(r.sf.moreRefs, v)
+	}
+	return nil
+}
+
+// moreReferences loads the reference runs after the first.
+func (sf *setupFlags) moreReferences() ([]*kinetics.Reference, error) {
+	var out []*kinetics.Reference
+	for _, f := range sf.moreRefs {
+		ref, err := report.LoadReference(f)
+		if err != nil {
+			return nil, usagef("--reference %s: %v", f, err)
+		}
+		out = append(out, ref)
+	}
+	return out, nil
 }

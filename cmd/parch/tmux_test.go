@@ -275,3 +275,42 @@ func TestTwoDashboardsAgreeWithReport(t *testing.T) {
 	wait("rec", "REC-EXITED 0", 20*time.Second)
 	wait("watch", "■ stopped", 5*time.Second)
 }
+
+// Issue 11, case 7 (and issue 8): reference runs on the dashboard, in a
+// real terminal: `parch demo --reference A --reference B` draws them dimmed
+// and names them; `parch report` lists both.
+func TestReferenceRunsInTmux(t *testing.T) {
+	if _, err := exec.LookPath("tmux"); err != nil {
+		t.Skip("tmux is not installed (.ci/run installs it)")
+	}
+	dir := t.TempDir()
+	for _, name := range []string{"earlier.jsonl", "older.jsonl"} {
+		if _, stderr, code := parch(t, dir, "record", "--demo", "--speed", "0", "--session", name, "--status", "0", "--initial-moisture", "86.5"); code != 0 {
+			t.Fatal(stderr)
+		}
+	}
+	sock := fmt.Sprintf("parch-test-ref-%d", os.Getpid())
+	tmux := func(args ...string) string {
+		out, _ := exec.Command("tmux", append([]string{"-L", sock}, args...)...).CombinedOutput()
+		return string(out)
+	}
+	defer tmux("kill-server")
+	tmux("new-session", "-d", "-x", "120", "-y", "40", "-s", "r", fmt.Sprintf("cd %s && %s demo --session now.jsonl --speed 400 --reference earlier.jsonl --reference older.jsonl; sleep 30", dir, binary))
+	deadline := time.Now().Add(30 * time.Second)
+	for {
+		s := tmux("capture-pane", "-p", "-t", "r")
+		if strings.Count(s, "∘") >= 2 && strings.Contains(s, "reference earlier.jsonl") && strings.Contains(s, "reference older.jsonl") {
+			break
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("no reference runs on the dashboard:\n%s", s)
+		}
+		time.Sleep(300 * time.Millisecond)
+	}
+	tmux("send-keys", "-t", "r", "q")
+	tmux("send-keys", "-t", "r", "y")
+	out, stderr, code := parch(t, dir, "report", "--format", "json", "--until", "2h", "--reference", "earlier.jsonl", "--reference", "older.jsonl", "now.jsonl")
+	if code != 0 || !strings.Contains(out, `"more_references"`) || !strings.Contains(out, "older.jsonl") {
+		t.Errorf("report with two references: %d %s\n%s", code, stderr, out)
+	}
+}

@@ -99,10 +99,14 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 	if err := sf.check(base); err != nil {
 		return err
 	}
+	more, err := sf.moreReferences()
+	if err != nil {
+		return err
+	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
 
-	opt := tui.Options{Stall: src.stall, AirLow: wa.airMin, AirHigh: wa.airMax,
+	opt := tui.Options{Stall: src.stall, AirLow: wa.airMin, AirHigh: wa.airMax, MoreReferences: more,
 		Bell: func() { os.Stdout.Write([]byte("\a")) }}
 	var finish func(runErr error) error
 	setup := kinetics.NewSetup()

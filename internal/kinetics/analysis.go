@@ -31,6 +31,8 @@ type Options struct {
 	UntilH       float64    // analyse only readings up to this time; NaN or 0: all
 	MaxFitPoints int        // model fits use at most this many time-binned points (default 2000)
 	Reference    *Reference // an earlier run of the same product, for the projection
+	// MoreReferences are further earlier runs (--reference repeated).
+	MoreReferences []*Reference
 }
 
 // Points are the derived values at every reading (NaN where not known).
@@ -474,16 +476,19 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 
 	// Projection to the target.
 	if solids != nil && !math.IsNaN(setup.TargetX()) && !ratioOnly {
-		ref := opt.Reference
-		if ref != nil && !ref.Overlaps(r.InitialMoistureDB, setup.TargetX()) {
-			r.warn("reference run %s not used: its moisture (%.3g to %.3g dry basis) does not meet this run's (%.3g down to the target %.3g); another product or another unit?",
-				ref.Name, ref.X0, ref.XEnd, r.InitialMoistureDB, setup.TargetX())
-			ref = nil
+		var refs []*Reference
+		for _, ref := range append([]*Reference{opt.Reference}, opt.MoreReferences...) {
+			if ref == nil {
+				continue
+			}
+			if !ref.Overlaps(r.InitialMoistureDB, setup.TargetX()) {
+				r.warn("reference run %s not used: its moisture (%.3g to %.3g dry basis) does not meet this run's (%.3g down to the target %.3g); another product or another unit?",
+					ref.Name, ref.X0, ref.XEnd, r.InitialMoistureDB, setup.TargetX())
+				continue
+			}
+			refs = append(refs, ref.ForEquilibrium(xe))
 		}
-		if ref != nil {
-			ref = ref.ForEquilibrium(xe)
-		}
-		r.track = newTrack(t, pts.X, keep, xe, r.InitialMoistureDB, setup.TargetX(), ref)
+		r.track = newTrack(t, pts.X, keep, xe, r.InitialMoistureDB, setup.TargetX(), refs)
 	}
 	switch {
 	case !math.IsNaN(r.TargetReachedH):

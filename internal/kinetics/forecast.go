@@ -2,6 +2,7 @@ package kinetics
 
 import (
 	"math"
+	"strings"
 )
 
 // A course is a projected future of the free moisture y = X − X_e (dry
@@ -51,6 +52,9 @@ func MethodTitle(name string) string {
 		return "reference run"
 	case MethodCombined:
 		return "combined"
+	}
+	if n, ok := strings.CutPrefix(name, MethodReference+"_"); ok {
+		return "reference run " + n
 	}
 	for _, f := range forecasters {
 		if f.name == name {

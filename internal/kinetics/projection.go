@@ -22,6 +22,7 @@ type Projection struct {
 	Checks               int         // back-test checks the weights and the range rest on
 	Path                 []PathPoint // the combined course from now to the target
 	Reference            *ReferenceUse
+	MoreReferences       []*ReferenceUse // further reference runs, when several are given
 }
 
 // MethodEstimate is what one method projects and how far it is trusted.

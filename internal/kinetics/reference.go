@@ -197,8 +197,8 @@ func searchAbove(t []float64, v float64) int {
 // reading, the time this run took from it to now against the time the
 // reference took between the same moisture ratios (least squares through
 // the origin, so a start-up lag in either run does not count).
-func (ref *Reference) forecaster() forecaster {
-	return forecaster{name: MethodReference, title: "reference run", fit: func(t, y []float64, y0 float64) course {
+func (ref *Reference) forecaster(name string) forecaster {
+	return forecaster{name: name, title: MethodTitle(name), fit: func(t, y []float64, y0 float64) course {
 		n := len(t)
 		if n < 4 || !(y0 > 0) {
 			return nil
@@ -249,37 +249,53 @@ type ReferenceUse struct {
 	Path     []PathPoint // its course from now to the target, scaled to this run
 }
 
-// describeReference fills in the reference's part of a projection.
-func (tr *track) describeReference(p *Projection) {
-	if tr.ref == nil {
-		return
+// refName is the method name of the i-th reference run.
+func refName(i int) string {
+	if i == 0 {
+		return MethodReference
 	}
-	u := &ReferenceUse{Name: tr.ref.Name, TargetH: math.NaN(), Error: math.NaN(), LowestMR: tr.ref.LowestMR()}
-	for _, m := range p.Methods {
-		if m.Name == MethodReference {
-			u.TargetH, u.Weight, u.Error = m.TargetH, m.Weight, m.Error
-			if m.Disabled != "" {
-				u.Note = "not used: " + m.Disabled
-			}
-		}
-	}
-	u.Path = tr.referencePath()
-	if mrT := tr.level / tr.y0; mrT < u.LowestMR && u.Note == "" {
-		u.Note = fmt.Sprintf("the reference reaches only a moisture ratio of %.3f and the target is %.3f: below it, its final decay is carried on", u.LowestMR, mrT)
-	}
-	p.Reference = u
+	return fmt.Sprintf("%s_%d", MethodReference, i+1)
 }
 
-// referencePath samples the reference's course, as scaled at the newest
+// describeReference fills in the reference runs' part of a projection.
+func (tr *track) describeReference(p *Projection) {
+	for i, ref := range tr.refs {
+		u := &ReferenceUse{Name: ref.Name, TargetH: math.NaN(), Error: math.NaN(), LowestMR: ref.LowestMR()}
+		for _, m := range p.Methods {
+			if m.Name == refName(i) {
+				u.TargetH, u.Weight, u.Error = m.TargetH, m.Weight, m.Error
+				if m.Disabled != "" {
+					u.Note = "not used: " + m.Disabled
+				}
+			}
+		}
+		u.Path = tr.referencePath(refName(i))
+		if mrT := tr.level / tr.y0; mrT < u.LowestMR && u.Note == "" {
+			u.Note = fmt.Sprintf("the reference reaches only a moisture ratio of %.3f and the target is %.3f: below it, its final decay is carried on", u.LowestMR, mrT)
+		}
+		if i == 0 {
+			p.Reference = u
+		} else {
+			p.MoreReferences = append(p.MoreReferences, u)
+		}
+	}
+}
+
+// referencePath samples a reference run's course, as scaled at the newest
 // cut, from now down to the target (nil when it does not project).
-func (tr *track) referencePath() []PathPoint {
+func (tr *track) referencePath(name string) []PathPoint {
 	b := tr.backtest()
 	if len(b.cuts) == 0 {
 		return nil
 	}
 	c := b.cuts[len(b.cuts)-1]
-	cr := c.courses[len(c.courses)-1] // the reference is the last method
-	if b.methods[len(b.methods)-1].name != MethodReference || cr == nil {
+	var cr course
+	for m, f := range b.methods {
+		if f.name == name {
+			cr = c.courses[m]
+		}
+	}
+	if cr == nil {
 		return nil
 	}
 	end := crossing(cr, c.at, tr.level, b.horizon(c.at))

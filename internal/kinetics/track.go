@@ -10,19 +10,19 @@ import (
 // reach.
 type track struct {
 	t, y      []float64
-	y0, xe    float64 // free moisture at the start; equilibrium moisture
-	level     float64 // the target as free moisture
-	ref       *Reference
-	bt        *backtest // built on first use
-	fullT     []float64 // kept readings before binning, for a history cut at the target
+	y0, xe    float64      // free moisture at the start; equilibrium moisture
+	level     float64      // the target as free moisture
+	refs      []*Reference // reference runs, the first the main one
+	bt        *backtest    // built on first use
+	fullT     []float64    // kept readings before binning, for a history cut at the target
 	fullX     []float64
 	reachedAt float64
 }
 
 // newTrack gathers the kept readings with a moisture (t, X, keep) for the
 // projection to xt (dry basis), with equilibrium xe and initial moisture x0.
-func newTrack(t, X []float64, keep []bool, xe, x0, xt float64, ref *Reference) *track {
-	tr := &track{xe: xe, y0: x0 - xe, level: xt - xe, ref: ref, reachedAt: math.NaN()}
+func newTrack(t, X []float64, keep []bool, xe, x0, xt float64, refs []*Reference) *track {
+	tr := &track{xe: xe, y0: x0 - xe, level: xt - xe, refs: refs, reachedAt: math.NaN()}
 	mask := make([]bool, len(t))
 	for i := range t {
 		mask[i] = keep[i] && !math.IsNaN(X[i])
@@ -44,11 +44,16 @@ func (tr *track) methods() []method {
 	for _, f := range forecasters {
 		ms = append(ms, method{forecaster: f, prior: 1})
 	}
-	if tr.ref != nil {
+	for i, ref := range tr.refs {
 		// The characteristic curve of the same product beats single-run
-		// methods by a wide margin on measured runs (DOMAIN.md): a larger
-		// prior, which the back-test then confirms or takes away.
-		ms = append(ms, method{forecaster: tr.ref.forecaster(), prior: 4})
+		// methods by a wide margin on measured runs (testdata/measured): a
+		// larger prior, which the back-test then confirms or takes away.
+		// Further reference runs share a like prior.
+		prior := 4.0
+		if i > 0 {
+			prior = 2
+		}
+		ms = append(ms, method{forecaster: ref.forecaster(refName(i)), prior: prior})
 	}
 	return ms
 }
@@ -108,7 +113,7 @@ func (r *Result) ProjectionHistory() []HistoryPoint {
 		for i := range keep {
 			keep[i] = true
 		}
-		tr = newTrack(tr.fullT[:k], tr.fullX[:k], keep, tr.xe, tr.y0+tr.xe, tr.level+tr.xe, tr.ref)
+		tr = newTrack(tr.fullT[:k], tr.fullX[:k], keep, tr.xe, tr.y0+tr.xe, tr.level+tr.xe, tr.refs)
 	}
 	if len(tr.t) < 4 {
 		return nil

@@ -79,6 +79,8 @@ type ProjectionOut struct {
 	Checks     int           `json:"backtest_checks"`
 	Methods    []MethodOut   `json:"methods"`
 	Reference  *ReferenceOut `json:"reference,omitempty"`
+	// MoreReferences are the further reference runs (--reference repeated).
+	MoreReferences []ReferenceOut `json:"more_references,omitempty"`
 }
 
 // MethodOut is one projection method: what it says and how far the
@@ -271,6 +273,10 @@ func projectionOut(p kinetics.Projection, massKnown bool) *ProjectionOut {
 			mo.Why = "it says the run levels off above the target"
 		}
 		out.Methods = append(out.Methods, mo)
+	}
+	for _, r := range p.MoreReferences {
+		out.MoreReferences = append(out.MoreReferences, ReferenceOut{File: r.Name, TargetH: Num(r.TargetH), Weight: Num(r.Weight), BacktestError: Num(r.Error),
+			LowestMR: Num(r.LowestMR), Note: r.Note})
 	}
 	if r := p.Reference; r != nil {
 		out.Reference = &ReferenceOut{File: r.Name, TargetH: Num(r.TargetH), Weight: Num(r.Weight), BacktestError: Num(r.Error),
