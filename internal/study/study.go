@@ -327,7 +327,10 @@ func scatterWarning(g GroupOut, runs []Run) string {
 			}
 			o := runOut(r)
 			d, se := float64(o.DeffM2PerS), float64(o.DeffSE)
-			if math.IsNaN(d) || !(se > 0) {
+			if math.IsNaN(d) {
+				continue // not fitted: not in the comparison
+			}
+			if !(se > 0) {
 				return ""
 			}
 			chi2 += (d - m) * (d - m) / (se * se)
@@ -342,7 +345,7 @@ func scatterWarning(g GroupOut, runs []Run) string {
 }
 
 func sameReadings(a, b Run) bool {
-	if a.Res == nil || b.Res == nil || len(a.TimeH) != len(b.TimeH) || len(a.Res.Points.NetG) != len(b.Res.Points.NetG) {
+	if a.Res == nil || b.Res == nil || len(a.TimeH) != len(b.TimeH) || len(a.Res.Points.NetG) == 0 || len(a.Res.Points.NetG) != len(b.Res.Points.NetG) {
 		return false
 	}
 	for i := range a.TimeH {
