@@ -45,6 +45,9 @@ var setupFields = []setupField{
 	{"slice thickness, mm", "thickness_mm",
 		func(s *kinetics.Setup) float64 { return s.ThicknessMM }, func(s *kinetics.Setup, v float64) { s.ThicknessMM = v },
 		positive},
+	{"air temperature setpoint, °C", "air_temp_c",
+		func(s *kinetics.Setup) float64 { return s.AirTempC }, func(s *kinetics.Setup, v float64) { s.AirTempC = v },
+		between(-40, 400)},
 	{"drying faces (1 solid tray, 2 mesh)", "faces",
 		func(s *kinetics.Setup) float64 {
 			if s.Faces == 0 {

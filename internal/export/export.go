@@ -126,7 +126,7 @@ func SetupMap(s kinetics.Setup) map[string]any {
 		report.KeyTare: n(s.TareG), report.KeyInitialMass: n(s.InitialMassG), report.KeyInitialMoistureWB: n(s.InitialMoistureWB),
 		report.KeyDryMass: n(s.DryMassG), report.KeyTargetWB: n(s.TargetWBPct), report.KeyTargetDB: n(s.TargetDB),
 		report.KeyEquilibriumDB: n(s.EquilibriumDB), report.KeyArea: n(s.AreaM2), report.KeyThickness: n(s.ThicknessMM),
-		report.KeyFaces: faces, report.KeySteadyPct: n(s.SteadyPct), report.KeySteadyWindowH: n(s.SteadyWindowH),
+		report.KeyFaces: faces, report.KeySteadyPct: n(s.SteadyPct), report.KeySteadyWindowH: n(s.SteadyWindowH), report.KeyAirTemp: n(s.AirTempC),
 		"removed": removed,
 	}
 }

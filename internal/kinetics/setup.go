@@ -22,6 +22,7 @@ type Setup struct {
 	Removals          []Removal // pieces taken out
 	SteadyPct         float64   // end of run: change within this percent of the mass...
 	SteadyWindowH     float64   // ...over this many hours
+	AirTempC          float64   // the dryer's air temperature setpoint, °C (NaN: not given); for studies
 }
 
 // Removal is a piece taken off the balance at ElapsedH hours, of MassG grams.
@@ -38,7 +39,7 @@ func NewSetup() Setup {
 	return Setup{
 		TareG: 0, InitialMassG: nan, InitialMoistureWB: nan, DryMassG: nan,
 		TargetWBPct: nan, TargetDB: nan, EquilibriumDB: 0, AreaM2: nan, ThicknessMM: nan,
-		SteadyPct: 0.5, SteadyWindowH: 1,
+		SteadyPct: 0.5, SteadyWindowH: 1, AirTempC: nan,
 	}
 }
 
@@ -61,6 +62,7 @@ func (s Setup) Validate() error {
 		{"steady tolerance (%)", s.SteadyPct, 0, 100, true},
 		{"steady window (h)", s.SteadyWindowH, 1.0 / 60, 1000, false},
 		{"tare (g)", s.TareG, 0, math.Inf(1), false},
+		{"air temperature (°C)", s.AirTempC, -40, 400, true},
 	}
 	for _, c := range checks {
 		if math.IsNaN(c.v) {

@@ -265,6 +265,7 @@ func ApplyParams(s *kinetics.Setup, p map[string]float64) {
 	set(KeyThickness, &s.ThicknessMM)
 	set(KeySteadyPct, &s.SteadyPct)
 	set(KeySteadyWindowH, &s.SteadyWindowH)
+	set(KeyAirTemp, &s.AirTempC)
 	if v, ok := p[KeyFaces]; ok {
 		s.Faces = int(v)
 	}
@@ -303,7 +304,7 @@ func ApplyEvent(s *kinetics.Setup, params map[string]any) {
 		KeyTare: def.TareG, KeyInitialMass: def.InitialMassG, KeyInitialMoistureWB: def.InitialMoistureWB,
 		KeyDryMass: def.DryMassG, KeyTargetWB: def.TargetWBPct, KeyTargetDB: def.TargetDB,
 		KeyEquilibriumDB: def.EquilibriumDB, KeyArea: def.AreaM2, KeyThickness: def.ThicknessMM,
-		KeySteadyPct: def.SteadyPct, KeySteadyWindowH: def.SteadyWindowH,
+		KeySteadyPct: def.SteadyPct, KeySteadyWindowH: def.SteadyWindowH, KeyAirTemp: def.AirTempC,
 	}
 	for k, v := range params {
 		switch x := v.(type) {
