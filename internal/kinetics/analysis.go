@@ -567,30 +567,45 @@ func smoothSegments(t, m []float64, keep []bool, breaks []float64, sd float64) (
 
 // binned averages kept, finite values into at most maxN equal time bins.
 func binned(t, v []float64, keep []bool, maxN int) ([]float64, []float64) {
-	var tt, vv []float64
+	// One pass to count and find the span, one to bin: nothing the size of
+	// the run is copied when it is binned.
+	n, first, last := 0, -1, -1
 	for i := range t {
 		if keep[i] && !math.IsNaN(v[i]) {
-			tt = append(tt, t[i])
-			vv = append(vv, v[i])
+			n++
+			if first < 0 {
+				first = i
+			}
+			last = i
 		}
 	}
-	if len(tt) <= maxN {
+	if n <= maxN {
+		tt, vv := make([]float64, 0, n), make([]float64, 0, n)
+		for i := range t {
+			if keep[i] && !math.IsNaN(v[i]) {
+				tt = append(tt, t[i])
+				vv = append(vv, v[i])
+			}
+		}
 		return tt, vv
 	}
-	t0, t1 := tt[0], tt[len(tt)-1]
+	t0, t1 := t[first], t[last]
 	w := (t1 - t0) / float64(maxN)
-	var bt, bv []float64
+	bt, bv := make([]float64, 0, maxN), make([]float64, 0, maxN)
 	sumT, sumV, c, bin := 0.0, 0.0, 0, 0
-	for i := range tt {
-		b := min(int((tt[i]-t0)/w), maxN-1)
+	for i := first; i <= last; i++ {
+		if !keep[i] || math.IsNaN(v[i]) {
+			continue
+		}
+		b := min(int((t[i]-t0)/w), maxN-1)
 		if b != bin && c > 0 {
 			bt = append(bt, sumT/float64(c))
 			bv = append(bv, sumV/float64(c))
 			sumT, sumV, c = 0, 0, 0
 		}
 		bin = b
-		sumT += tt[i]
-		sumV += vv[i]
+		sumT += t[i]
+		sumV += v[i]
 		c++
 	}
 	if c > 0 {

@@ -340,7 +340,8 @@ func robustSlope(t, m []float64) float64 {
 
 // decimateForSteps bins long series to medians so step finding stays fast.
 func decimateForSteps(t, m []float64, keep []bool, maxN int) ([]float64, []float64, []bool, float64) {
-	var tt, mm []float64
+	nk := countTrue(keep)
+	tt, mm := make([]float64, 0, nk), make([]float64, 0, nk) // sized once: no regrowing on long runs
 	for i := range t {
 		if keep[i] {
 			tt = append(tt, t[i])
@@ -349,7 +350,7 @@ func decimateForSteps(t, m []float64, keep []bool, maxN int) ([]float64, []float
 	}
 	if len(tt) > maxN {
 		per := (len(tt) + maxN - 1) / maxN
-		var bt, bm []float64
+		bt, bm := make([]float64, 0, maxN+1), make([]float64, 0, maxN+1)
 		for i := 0; i < len(tt); i += per {
 			j := min(i+per, len(tt))
 			bt = append(bt, median(tt[i:j]))

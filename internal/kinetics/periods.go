@@ -130,7 +130,8 @@ func FindConstantRate(t, smooth, rate []float64, rateSD, windowH float64) *Const
 // steadyAt is the first time the weight has been steady: the linear change
 // over the trailing window is within pct % of the mass. NaN if never.
 func steadyAt(t, m []float64, keep []bool, breaks []float64, windowH, pct float64) float64 {
-	var tt, mm []float64
+	nk := countTrue(keep)
+	tt, mm := make([]float64, 0, nk), make([]float64, 0, nk)
 	for i := range t {
 		if keep[i] {
 			tt = append(tt, t[i])
@@ -139,6 +140,20 @@ func steadyAt(t, m []float64, keep []bool, breaks []float64, windowH, pct float6
 	}
 	if len(tt) < 10 || tt[len(tt)-1]-tt[0] < windowH {
 		return math.NaN()
+	}
+	// Prefix sums: the straight-line slope and the mean level of any window
+	// in constant time (the window is a straight-line fit, as LocalPoly of
+	// degree 1 gives, and the mean stands for the level: the test is a
+	// relative tolerance).
+	st, sm, stt, stm := prefix(tt, mm)
+	window := func(lo, hi int) (slope, level float64, ok bool) {
+		n := float64(hi - lo)
+		a, b := st[hi]-st[lo], sm[hi]-sm[lo]
+		den := n*(stt[hi]-stt[lo]) - a*a
+		if !(den > 0) {
+			return 0, 0, false
+		}
+		return (n*(stm[hi]-stm[lo]) - a*b) / den, b / n, true
 	}
 	// Counted steps, at most 100 000 over the run: a step too small to move
 	// the end (a window of 1e-300 h) cannot make this loop for ever.
@@ -154,11 +169,10 @@ func steadyAt(t, m []float64, keep []bool, breaks []float64, windowH, pct float6
 		if hi-lo < 5 || crosses(breaks, end-windowH, end) {
 			continue
 		}
-		_, slope, err := LocalPoly(tt[lo:hi], mm[lo:hi], end, 1)
-		if err != nil {
+		slope, level, ok := window(lo, hi)
+		if !ok {
 			continue
 		}
-		level := median(mm[lo:hi])
 		if math.Abs(slope)*windowH <= pct/100*level {
 			return end
 		}
@@ -173,4 +187,20 @@ func crosses(breaks []float64, from, to float64) bool {
 		}
 	}
 	return false
+}
+
+// prefix returns running sums of t, m, t² and t·m (index i: the first i
+// values), with t taken from its first value so the sums stay well scaled.
+func prefix(t, m []float64) (st, sm, stt, stm []float64) {
+	n := len(t)
+	st, sm, stt, stm = make([]float64, n+1), make([]float64, n+1), make([]float64, n+1), make([]float64, n+1)
+	t0 := t[0]
+	for i := range t {
+		d := t[i] - t0
+		st[i+1] = st[i] + d
+		sm[i+1] = sm[i] + m[i]
+		stt[i+1] = stt[i] + d*d
+		stm[i+1] = stm[i] + d*m[i]
+	}
+	return
 }

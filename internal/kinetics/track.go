@@ -24,8 +24,15 @@ type track struct {
 func newTrack(t, X []float64, keep []bool, xe, x0, xt float64, refs []*Reference) *track {
 	tr := &track{xe: xe, y0: x0 - xe, level: xt - xe, refs: refs, reachedAt: math.NaN()}
 	mask := make([]bool, len(t))
+	n := 0
 	for i := range t {
 		mask[i] = keep[i] && !math.IsNaN(X[i])
+		if mask[i] {
+			n++
+		}
+	}
+	tr.fullT, tr.fullX = make([]float64, 0, n), make([]float64, 0, n)
+	for i := range t {
 		if mask[i] {
 			tr.fullT = append(tr.fullT, t[i])
 			tr.fullX = append(tr.fullX, X[i])
