@@ -39,7 +39,7 @@ func runCompare(args []string, stdout, stderr io.Writer) error {
 	sf.register(fs)
 	var labels, temps fileValues
 	fs.Var(&labels, "label", "a run's name, `FILE=NAME` (repeatable); runs whose names differ only by a trailing number are replicates of one product")
-	fs.Var(&temps, "temperature", "a run's air temperature, `FILE=C` (°C), when neither its log nor an air channel gives it")
+	fs.Var(&temps, "temperature", "a run's air temperature, `FILE=C` (°C), for a run whose setup and air channel do not give it")
 	format := fs.String("format", "text", "output: text or json")
 	out := fs.String("out", "", "write the study into the folder `DIR`: study.json, study.md, plots")
 	force := fs.Bool("force", false, "with --out: write into a folder that exists")
@@ -66,6 +66,7 @@ func runCompare(args []string, stdout, stderr io.Writer) error {
 		return err
 	}
 	var runs []study.Run
+	var notes []string
 	for _, path := range pos {
 		run, err := report.Load(path, report.TableOptionsNone)
 		if err != nil {
@@ -102,13 +103,25 @@ func runCompare(args []string, stdout, stderr io.Writer) error {
 			if err != nil || !(v > -40 && v < 400) {
 				return usagef("--temperature %s=%s: expected an air temperature in °C", path, t)
 			}
-			r.AirTempC, r.TempFrom = v, "--temperature"
+			// The run's own record comes first (its setup, then its air
+			// channel); --temperature is for runs that have neither.
+			if math.IsNaN(r.AirTempC) || r.TempFrom == "--air-temp" {
+				r.AirTempC, r.TempFrom = v, "--temperature"
+			} else if math.Abs(v-r.AirTempC) > 1 {
+				notes = append(notes, fmt.Sprintf("%s: --temperature %g °C not used: the run's %s says %.1f °C", path, v, r.TempFrom, r.AirTempC))
+			}
 		}
 		runs = append(runs, r)
 	}
 	st, err := study.Build(runs)
 	if err != nil {
 		return usagef("%v", err)
+	}
+	st.Warnings = append(notes, st.Warnings...)
+	for _, r := range runs {
+		for _, w := range r.Sum.Warnings {
+			st.Warnings = append(st.Warnings, filepath.Base(r.File)+": "+w)
+		}
 	}
 	if *out != "" {
 		if err := export.WriteStudy(*out, *force, st, runs); err != nil {

@@ -125,6 +125,9 @@ func analyse(path string, opt ingest.TableOptions, sf *setupFlags, until float64
 	if warning != "" {
 		res.Warnings = append(res.Warnings, warning)
 	}
+	if _, inLog := run.Params[report.KeyEquilibriumDB]; !inLog && !sf.given("equilibrium") && res.Diffusivity != nil {
+		res.Warnings = append(res.Warnings, "equilibrium moisture not given (--equilibrium X): taken as 0; the moisture ratio, the models and Deff depend on it")
+	}
 	if !math.IsNaN(until) && res.AfterCut == 0 {
 		res.Warnings = append(res.Warnings, fmt.Sprintf("--until %s: no reading is later than that, so nothing was cut", sf.until))
 	}

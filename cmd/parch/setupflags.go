@@ -78,7 +78,7 @@ func (sf *setupFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&sf.faces, "faces", 0, "drying faces: 1 on a solid tray, 2 on a mesh (default 2)")
 	num("steady-pct", report.KeySteadyPct, "end of run when the weight changes less than this `PCT` over --steady-window (default 0.5)")
 	num("steady-window", report.KeySteadyWindowH, "window for the end-of-run test, `HOURS` (default 1)")
-	num("air-temp", report.KeyAirTemp, "the dryer's air temperature setpoint, `C` (°C), for a study of several runs (parch compare)")
+	num("air-temp", report.KeyAirTemp, "the dryer's air temperature setpoint, `°C`, for a study of several runs (parch compare)")
 	fs.Var(referenceFlag{sf}, "reference", "an earlier run of the same product, `FILE` (a session log with its setup, or a table of moisture or moisture ratio): its drying curve helps the projection; repeat for several (the first is the one a recording names in its log)")
 }
 
@@ -247,4 +247,11 @@ func (sf *setupFlags) moreReferences() ([]*kinetics.Reference, error) {
 		out = append(out, ref)
 	}
 	return out, nil
+}
+
+// given reports whether the flag was set on the command line.
+func (sf *setupFlags) given(name string) bool {
+	set := false
+	sf.fs.Visit(func(f *flag.Flag) { set = set || f.Name == name })
+	return set
 }

@@ -12,6 +12,7 @@ import (
 	"syscall"
 	"time"
 
+	"parch/internal/report"
 	"parch/internal/simulate"
 )
 
@@ -32,6 +33,7 @@ func runSimulate(args []string, stdout, stderr io.Writer) error {
 	fset.IntVar(&sc.Faces, "faces", sc.Faces, "drying faces: 1 solid tray, 2 mesh")
 	fset.Float64Var(&sc.DiffusivityM2s, "diffusivity", sc.DiffusivityM2s, "effective diffusivity, m²/s")
 	fset.Float64Var(&sc.NoiseG, "noise", sc.NoiseG, "balance noise (standard deviation), g")
+	fset.Float64Var(&sc.AirTempC, "air-temp", sc.AirTempC, "air temperature setpoint, °C (the air_temp_c column)")
 	noDoors := fset.Bool("no-doors", false, "no door openings")
 	pos, err := parseFlags(fset, args)
 	if err != nil {
@@ -72,7 +74,9 @@ func runSimulate(args []string, stdout, stderr io.Writer) error {
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
 	bw := bufio.NewWriter(w)
-	fmt.Fprintf(bw, "elapsed_s,mass_g,stable,air_temp_c\n")
+	// The last column marks every row as invented: the file is not a
+	// measurement, and its report says so.
+	fmt.Fprintf(bw, "elapsed_s,mass_g,stable,air_temp_c,%s\n", report.ChannelInvented)
 	began := time.Now()
 	var werr error
 	m.Run(*seed, func(s simulate.Sample) bool {
@@ -80,7 +84,7 @@ func runSimulate(args []string, stdout, stderr io.Writer) error {
 		if s.Stable {
 			st = 1
 		}
-		if _, werr = fmt.Fprintf(bw, "%g,%.2f,%d,%.1f\n", s.ElapsedS, s.MassG, st, s.AirTempC); werr != nil {
+		if _, werr = fmt.Fprintf(bw, "%g,%.2f,%d,%.1f,1\n", s.ElapsedS, s.MassG, st, s.AirTempC); werr != nil {
 			return false
 		}
 		if *speed > 0 {

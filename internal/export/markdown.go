@@ -30,6 +30,9 @@ func Markdown(w io.Writer, b *Bundle) error {
 	}
 
 	p("# Drying run: %s\n\n", filepath.Base(b.Run.Path))
+	if b.Run.Invented {
+		p("**Invented data:** this run was made up by parch (the demo or `parch simulate`) to show the tool; it is not a measurement of any product.\n\n")
+	}
 	p("Made by parch %s from `%s` (%s). Every figure below is computed from the readings in that file and the setup listed here; the readings were not changed. To re-make it, run `parch report %s --out DIR` with the same setup flags.\n\n",
 		b.Version, filepath.Base(b.Run.Path), b.Run.Format, filepath.Base(b.Run.Path))
 
@@ -278,7 +281,21 @@ func writeProjection(p func(string, ...any), sum report.Summary) {
 				continue
 			}
 			p("| %s | %s | %s to %s | %s | %s | %s |\n", v(hp.AtH, "%.2f"), v(hp.TargetH, "%.2f"), v(hp.LowH, "%.2f"), v(hp.HighH, "%.2f"),
-				v(hp.ActualH, "%.2f"), v(hp.ErrorPc, "%+.0f %% of the time left"), held)
+				v(hp.ActualH, "%.2f"), errText(hp), held)
 		}
 	}
+}
+
+// errText is a history row's error: as a share of the time that was left,
+// or in hours in the last tenth of the way, where a share of almost
+// nothing means nothing.
+func errText(hp report.HistoryOut) string {
+	left := float64(hp.ActualH) - float64(hp.AtH)
+	switch {
+	case math.IsNaN(float64(hp.ErrorH)):
+		return "—"
+	case left < 0.1*float64(hp.ActualH) || math.IsNaN(float64(hp.ErrorPc)):
+		return fmt.Sprintf("%+.2f h", float64(hp.ErrorH))
+	}
+	return fmt.Sprintf("%+.0f %% of the time left", float64(hp.ErrorPc))
 }

@@ -264,15 +264,20 @@ func StudyText(w io.Writer, st *study.Study) error {
 	}
 	p("\nReplicates (same label, air within %.1f °C)\n", study.ReplicateTolC)
 	for _, g := range st.Groups {
-		p("  %-8s %6s °C  n=%d  time to target %s ± %s h  Deff %s ± %s m²/s\n", clip(g.Label, 8), v(g.AirTempC, "%.1f"), len(g.Runs),
+		label := g.Label
+		if label == "" {
+			label = "(all)"
+		}
+		p("  %-8s %6s °C  n=%d  time to target %s ± %s h  Deff %s ± %s m²/s\n", clip(label, 8), v(g.AirTempC, "%.1f"), len(g.Runs),
 			v(g.TimeToTargetH.Mean, "%.2f"), v(g.TimeToTargetH.SD, "%.2f"), v(g.DeffM2PerS.Mean, "%.3g"), v(g.DeffM2PerS.SD, "%.2g"))
 	}
 	arr := func(name string, a *study.ArrheniusOut) {
 		if a == nil {
 			return
 		}
-		p("\n%s%s: Ea = %s ± %s kJ/mol, pre-exponential %s, R² %s, %d runs%s\n", name, map[bool]string{true: " (" + a.Label + ")", false: ""}[a.Label != ""],
-			v(a.EaKJ, "%.2f"), v(a.EaSEKJ, "%.2f"), v(a.P0, "%.3g"), v(a.R2, "%.4f"), len(a.Points), map[bool]string{true: ", weighted by their standard errors", false: ""}[a.Weighted])
+		unit := map[string]string{"deff_m2_per_s": " m²/s", "lewis_k_per_h": " 1/h"}[a.Parameter]
+		p("\n%s%s: Ea = %s ± %s kJ/mol, pre-exponential %s%s, R² %s, %d runs%s\n", name, map[bool]string{true: " (" + a.Label + ")", false: ""}[a.Label != ""],
+			v(a.EaKJ, "%.2f"), v(a.EaSEKJ, "%.2f"), v(a.P0, "%.3g"), unit, v(a.R2, "%.4f"), len(a.Points), map[bool]string{true: ", weighted by their standard errors", false: ""}[a.Weighted])
 	}
 	arr("Arrhenius, Deff", st.Arrhenius)
 	arr("Arrhenius, Lewis k", st.ArrK)
@@ -330,10 +335,7 @@ func studyMarkdown(w io.Writer, st *study.Study, plots []string) error {
 	for _, name := range plots {
 		fmt.Fprintf(&b, "![%s](%s.png)\n\n*%s* (also as [SVG](%s.svg)).\n\n", titles[name], name, titles[name], name)
 	}
-	b.WriteString("## Files\n\n- `study.json`: the figures for programs (`parch compare --format json`).\n\n## Cautions\n\n")
-	for _, c := range report.Cautions {
-		fmt.Fprintf(&b, "- %s\n", c)
-	}
+	b.WriteString("## Files\n\n- `study.json`: the figures for programs (`parch compare --format json`).\n")
 	_, err := io.WriteString(w, b.String())
 	return err
 }

@@ -48,7 +48,12 @@ type Table struct {
 	wetBasis bool // the value column is wet-basis moisture, converted to dry basis
 	wbPct    bool // ... given in percent
 	Channels []Channel
-	comma    bool // decimal comma allowed in numbers (; or tab delimited)
+	comma    bool     // decimal comma allowed in numbers (; or tab delimited)
+	fields   []string // reused between rows
+	// ChannelValues, when set, receives each row's channel values (in the
+	// order of Channels, NaN where a cell is empty) instead of Row.Channels:
+	// a long table then costs no map per row.
+	ChannelValues []float64
 }
 
 // Channel is a numeric column kept beside the mass.
@@ -143,7 +148,7 @@ func NewTable(header string, opt TableOptions) (*Table, error) {
 // Decode reads one data row. The time column decides, on the first row,
 // whether times are clock times or elapsed times.
 func (tb *Table) Decode(line string) (Row, error) {
-	f := splitRow(strings.TrimRight(line, "\r\n"), tb.Delim)
+	f := tb.split(strings.TrimRight(line, "\r\n"))
 	if len(f) <= max(tb.TimeIdx, tb.MassIdx) {
 		return Row{}, fmt.Errorf("row has %d fields, expected at least %d as in the header", len(f), max(tb.TimeIdx, tb.MassIdx)+1)
 	}
@@ -194,6 +199,17 @@ func (tb *Table) Decode(line string) (Row, error) {
 		case "0", "false", "no", "n", "u", "us", "unstable":
 			r.Stable = Unstable
 		}
+	}
+	if tb.ChannelValues != nil {
+		for j, c := range tb.Channels {
+			tb.ChannelValues[j] = math.NaN()
+			if c.Idx < len(f) {
+				if v, ok := tb.number(strings.TrimSpace(f[c.Idx])); ok {
+					tb.ChannelValues[j] = v
+				}
+			}
+		}
+		return r, nil
 	}
 	for _, c := range tb.Channels {
 		if c.Idx >= len(f) {
@@ -267,6 +283,26 @@ func sniffDelim(header string) byte {
 		}
 	}
 	return best
+}
+
+// split is splitRow without an allocation per field for a row with no
+// quotes (the common case), into a slice reused between rows.
+func (tb *Table) split(line string) []string {
+	if strings.IndexByte(line, '"') >= 0 {
+		return splitRow(line, tb.Delim)
+	}
+	f := tb.fields[:0]
+	for {
+		i := strings.IndexByte(line, tb.Delim)
+		if i < 0 {
+			f = append(f, line)
+			break
+		}
+		f = append(f, line[:i])
+		line = line[i+1:]
+	}
+	tb.fields = f
+	return f
 }
 
 // splitRow splits on delim, honouring double quotes (RFC 4180) within a line.

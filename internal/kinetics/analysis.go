@@ -335,6 +335,9 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 
 	// Dry solids over time: S0 at the start, reduced by each removal.
 	solids := solidsProfile(r, s.Kind, setup, t, pts.SmoothG, keep, m0)
+	if s.Kind == SeriesMass {
+		r.checkRemovals(t, pts.NetG, keep)
+	}
 
 	n0 := n
 	pts.X = nanSlice(n0)
@@ -642,4 +645,32 @@ func maskNaN(v []float64, keep []bool) []float64 {
 		}
 	}
 	return out
+}
+
+// checkRemovals warns when a declared removal has no drop on the balance to
+// match it: grams or a time typed wrong, or a piece noted that was not taken
+// off. The removal is applied all the same (the note is the record).
+func (r *Result) checkRemovals(t, m []float64, keep []bool) {
+	for _, rm := range r.Removed {
+		var before, after []float64
+		for i := len(t) - 1; i >= 0 && len(before) < 5; i-- {
+			if keep[i] && t[i] < rm.ElapsedH {
+				before = append(before, m[i])
+			}
+		}
+		for i := range t {
+			if keep[i] && t[i] > rm.ElapsedH {
+				after = append(after, m[i])
+				if len(after) == 5 {
+					break
+				}
+			}
+		}
+		if len(before) < 3 || len(after) < 3 {
+			continue // at an end of the run: nothing to compare
+		}
+		if drop := median(before) - median(after); drop < 0.5*rm.MassG {
+			r.warn("removal of %.2f g at %.2f h: the balance shows a drop of %.2f g there; check the grams and the time of the note", rm.MassG, rm.ElapsedH, drop)
+		}
+	}
 }

@@ -150,3 +150,23 @@ func TestImplausibleValues(t *testing.T) {
 		t.Error("final mass NaN")
 	}
 }
+
+// A declared removal with no drop on the balance is applied but flagged
+// (grams or a time typed wrong).
+func TestRemovalWithoutDrop(t *testing.T) {
+	var s Series
+	for i := 0; i <= 600; i++ {
+		s.TimeH = append(s.TimeH, float64(i)/60)
+		s.Value = append(s.Value, 27+100*math.Exp(-0.5*float64(i)/60))
+	}
+	setup := NewSetup()
+	setup.DryMassG = 27
+	setup.Removals = []Removal{{ElapsedH: 5, MassG: 2.5}}
+	r, err := Analyze(s, setup, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(strings.Join(r.Warnings, "|"), "removal of 2.50 g at 5.00 h: the balance shows a drop of") {
+		t.Errorf("warnings %q", r.Warnings)
+	}
+}

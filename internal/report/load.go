@@ -33,7 +33,10 @@ type Run struct {
 	Params   map[string]float64 // setup keys from the log, later ones winning
 	// ReferenceFile is the reference run the log names (KeyReferenceFile).
 	ReferenceFile string
-	Warnings      []string // lines skipped while reading
+	// Invented is true for a run parch made up (the demo, parch simulate):
+	// every report of it says so.
+	Invented bool
+	Warnings []string // lines skipped while reading
 }
 
 // Note is an operator's note placed on the run's timeline.
@@ -66,6 +69,10 @@ const (
 	KeyReferenceFile = "reference_file"
 )
 
+// ChannelInvented is the column `parch simulate` adds to mark its rows as
+// invented.
+const ChannelInvented = "invented_demo_data"
+
 // TableOptionsNone reads a CSV with every column guessed from its header.
 var TableOptionsNone = ingest.TableOptions{}
 
@@ -77,7 +84,7 @@ const KindPieceRemoved = "piece_removed"
 func Load(path string, table ingest.TableOptions) (*Run, error) {
 	f, err := os.Open(path)
 	if err != nil {
-		return nil, fmt.Errorf("open %s: %w", path, err)
+		return nil, err // the error names the file
 	}
 	defer f.Close()
 	if st, err := f.Stat(); err == nil && !st.Mode().IsRegular() && st.Mode()&os.ModeNamedPipe == 0 {
@@ -92,7 +99,11 @@ func Load(path string, table ingest.TableOptions) (*Run, error) {
 		return loadSession(path, lr)
 	}
 	table.AllowMoisture = true
-	return loadTable(path, lr, table)
+	var size int64
+	if st, err := f.Stat(); err == nil {
+		size = st.Size()
+	}
+	return loadTable(path, lr, table, size)
 }
 
 // MaxLineBytes bounds a line of a file read for a report; longer lines are
@@ -118,6 +129,11 @@ func loadSession(path string, lr *textline.Reader) (*Run, error) {
 	}
 	run.Params = log.SetupParams()
 	run.ReferenceFile = log.SetupText(KeyReferenceFile)
+	for _, e := range log.Sources {
+		if strings.Contains(e.Detail, "invented") {
+			run.Invented = true
+		}
+	}
 	for _, e := range log.Notes {
 		at := e.T
 		if !e.ReadingT.IsZero() {
@@ -136,9 +152,10 @@ func loadSession(path string, lr *textline.Reader) (*Run, error) {
 	return run, nil
 }
 
-func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions) (*Run, error) {
+func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions, sizeHint int64) (*Run, error) {
 	run := &Run{Path: path, Format: "csv", Params: map[string]float64{}, Channels: map[string][]float32{}}
 	var tb *ingest.Table
+	var dupChan []bool
 	lineNo := 0
 	var t0 time.Time
 	var e0 time.Duration
@@ -176,6 +193,23 @@ func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions) (*Run,
 				if tb, err = ingest.NewTable(line, opt); err != nil {
 					return nil, fmt.Errorf("%s: %w", path, err)
 				}
+				tb.ChannelValues = make([]float64, len(tb.Channels))
+				seen := map[string]bool{}
+				dupChan = make([]bool, len(tb.Channels)) // two columns of one name: the first is kept
+				for j, c := range tb.Channels {
+					dupChan[j], seen[c.Name] = seen[c.Name], true
+				}
+				// Sized from the file: rows are about as long as this one.
+				if rows := sizeHint / int64(max(len(raw), 16)); rows > 0 && rows < 1<<28 {
+					n := int(rows)
+					run.Series.TimeH = make([]float64, 0, n)
+					run.Series.Value = make([]float64, 0, n)
+					run.Series.Stable = make([]int8, 0, n)
+					run.TimesMs = make([]int64, 0, n)
+					for _, c := range tb.Channels {
+						run.Channels[c.Name] = make([]float32, 0, n)
+					}
+				}
 				continue
 			}
 			if strings.TrimSpace(line) == "" {
@@ -209,13 +243,10 @@ func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions) (*Run,
 			run.Series.Value = append(run.Series.Value, row.MassG)
 			run.Series.Stable = append(run.Series.Stable, st)
 			run.TimesMs = append(run.TimesMs, ms)
-			n := len(run.Series.TimeH)
-			for name, v := range row.Channels {
-				col := run.Channels[name]
-				for len(col) < n-1 {
-					col = append(col, float32(math.NaN()))
+			for j, c := range tb.Channels {
+				if !dupChan[j] {
+					run.Channels[c.Name] = append(run.Channels[c.Name], float32(tb.ChannelValues[j]))
 				}
-				run.Channels[name] = append(col, float32(v))
 			}
 		}
 		if err != nil {
@@ -237,6 +268,10 @@ func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions) (*Run,
 			col = append(col, float32(math.NaN()))
 		}
 		run.Channels[name] = col
+	}
+	if _, ok := run.Channels[ChannelInvented]; ok {
+		run.Invented = true
+		delete(run.Channels, ChannelInvented)
 	}
 	switch tb.Quantity {
 	case ingest.QuantityMoistureDB:

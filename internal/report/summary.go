@@ -57,13 +57,15 @@ type Summary struct {
 	History             []HistoryOut   `json:"projection_history"`
 
 	// Extra context, beyond the contract.
-	Input         string  `json:"input"`
-	Start         *string `json:"start"`
-	InitialDryG   Num     `json:"initial_dry_mass_g"`
-	InitialMoistD Num     `json:"initial_moisture_db"`
-	NoiseSDG      Num     `json:"noise_sd_g"`
-	UntilH        Num     `json:"until_h"`
-	AfterCut      int     `json:"readings_after_cut"` // readings later than until_h, not analysed
+	Input         string   `json:"input"`
+	Invented      bool     `json:"invented_data"` // a run parch made up (demo, simulate), not a measurement
+	Cautions      []string `json:"cautions"`
+	Start         *string  `json:"start"`
+	InitialDryG   Num      `json:"initial_dry_mass_g"`
+	InitialMoistD Num      `json:"initial_moisture_db"`
+	NoiseSDG      Num      `json:"noise_sd_g"`
+	UntilH        Num      `json:"until_h"`
+	AfterCut      int      `json:"readings_after_cut"` // readings later than until_h, not analysed
 }
 
 // ProjectionOut is the projected time to the target.
@@ -186,7 +188,7 @@ func Build(run *Run, res *kinetics.Result, setup kinetics.Setup, untilH float64)
 		FinalMassG: Num(res.FinalMassG), FinalMoistureWBPct: Num(res.FinalMoistureWBPct), FinalMoistureDB: Num(res.FinalMoistureDB),
 		TargetMoistureWBPct: Num(res.TargetMoistureWBPct), TargetMassG: Num(res.TargetMassG), TargetReachedH: Num(res.TargetReachedH),
 		DiffusivityM2PerS: Num(math.NaN()), EndOfRunH: Num(res.EndOfRunH), RMSEDefinition: RMSEDefinition,
-		Input: run.Path, InitialDryG: Num(res.InitialDryMassG), InitialMoistD: Num(res.InitialMoistureDB),
+		Input: run.Path, Invented: run.Invented, Cautions: Cautions, InitialDryG: Num(res.InitialDryMassG), InitialMoistD: Num(res.InitialMoistureDB),
 		NoiseSDG: Num(res.NoiseSD), UntilH: Num(untilH), AfterCut: res.AfterCut,
 		Models: []ModelOut{}, Removed: []MassAt{}, SuspectedRemovals: []MassAt{}, Notes: []NoteOut{},
 		Warnings: append([]string{}, run.Warnings...),
@@ -351,6 +353,9 @@ func WriteText(w io.Writer, s Summary) error {
 		return fmt.Sprintf(format, float64(x)) + unit
 	}
 	p("parch report: %s\n", s.Input)
+	if s.Invented {
+		p("INVENTED DATA: a run parch made up (the demo or parch simulate), not a measurement\n")
+	}
 	if s.Start != nil {
 		p("started %s\n", *s.Start)
 	}
