@@ -310,26 +310,10 @@ func TestGoldenViews(t *testing.T) {
 			m = step(t, m, eventsMsg(evs[700:]))
 			m = step(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("c")})
 			got := plain(m.View())
-			for i, l := range strings.Split(got, "\n") {
-				if w := lipgloss.Width(l); w > size[0] {
-					t.Errorf("line %d is %d wide: %q", i, w, l)
-				}
-			}
 			if n := strings.Count(got, "\n") + 1; n != size[1] {
 				t.Errorf("%d lines, want %d", n, size[1])
 			}
-			if updating() {
-				os.MkdirAll("testdata", 0o755)
-				os.WriteFile(name, []byte(got), 0o644)
-				return
-			}
-			want, err := os.ReadFile(name)
-			if err != nil {
-				t.Fatalf("%v (run go test ./tui -update)", err)
-			}
-			if got != string(want) {
-				t.Errorf("screen differs from %s:\n%s", name, got)
-			}
+			checkGolden(t, name, got, size[0])
 		})
 	}
 }
@@ -546,23 +530,7 @@ func TestGoldenScreens(t *testing.T) {
 			t.Run(file, func(t *testing.T) {
 				m := newTestModel(&memSink{}, start.Add(4*time.Hour))
 				m = step(t, m, tea.WindowSizeMsg{Width: size[0], Height: size[1]})
-				got := plain(scene(m).View())
-				for i, l := range strings.Split(got, "\n") {
-					if lw := lipgloss.Width(l); lw > size[0] {
-						t.Errorf("line %d is %d wide: %q", i, lw, l)
-					}
-				}
-				if updating() {
-					os.WriteFile(file, []byte(got), 0o644)
-					return
-				}
-				want, err := os.ReadFile(file)
-				if err != nil {
-					t.Fatalf("%v (run go test ./tui -update)", err)
-				}
-				if got != string(want) {
-					t.Errorf("screen differs from %s:\n%s", file, got)
-				}
+				checkGolden(t, file, plain(scene(m).View()), size[0])
 			})
 		}
 	}
@@ -595,5 +563,28 @@ func TestKeysTogetherAndSetupTyping(t *testing.T) {
 	m = next.(Model)
 	if v := plain(m.View()); !strings.Contains(v, "recomputing") {
 		t.Errorf("the old target mass is shown beside the new tare:\n%s", v)
+	}
+}
+
+// checkGolden compares a screen with its golden file (rewritten with
+// -update) and checks that no line is wider than the terminal.
+func checkGolden(t *testing.T, file, got string, width int) {
+	t.Helper()
+	for i, l := range strings.Split(got, "\n") {
+		if w := lipgloss.Width(l); w > width {
+			t.Errorf("line %d is %d wide: %q", i, w, l)
+		}
+	}
+	if updating() {
+		os.MkdirAll("testdata", 0o755)
+		os.WriteFile(file, []byte(got), 0o644)
+		return
+	}
+	want, err := os.ReadFile(file)
+	if err != nil {
+		t.Fatalf("%v (run go test ./tui -update)", err)
+	}
+	if got != string(want) {
+		t.Errorf("screen differs from %s:\n%s", file, got)
 	}
 }

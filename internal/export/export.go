@@ -45,12 +45,7 @@ func Write(dir string, force bool, b *Bundle, progress func(string)) error {
 	if progress == nil {
 		progress = func(string) {}
 	}
-	if _, err := os.Stat(dir); err == nil && !force {
-		return fmt.Errorf("%s: %w; parch does not overwrite it (use --force, or another --out)", dir, ErrExists)
-	} else if err != nil && !errors.Is(err, fs.ErrNotExist) {
-		return err
-	}
-	if err := os.MkdirAll(dir, 0o755); err != nil {
+	if err := makeFolder(dir, force); err != nil {
 		return err
 	}
 	steps := []struct {
@@ -70,6 +65,17 @@ func Write(dir string, force bool, b *Bundle, progress func(string)) error {
 	}
 	progress("drawing plots")
 	return Plots(dir, b)
+}
+
+// makeFolder makes an output folder; one that exists is refused unless
+// force.
+func makeFolder(dir string, force bool) error {
+	if _, err := os.Stat(dir); err == nil && !force {
+		return fmt.Errorf("%s: %w; parch does not overwrite it (use --force, or another --out)", dir, ErrExists)
+	} else if err != nil && !errors.Is(err, fs.ErrNotExist) {
+		return err
+	}
+	return os.MkdirAll(dir, 0o755)
 }
 
 // writeFile writes a new file in its folder and renames it into place, so

@@ -59,14 +59,8 @@ func Plots(dir string, b *Bundle) error {
 		if p == nil {
 			continue
 		}
-		for _, ext := range []string{".svg", ".png"} {
-			wt, err := p.WriterTo(plotW, plotH, ext[1:])
-			if err == nil {
-				err = writeFile(filepath.Join(dir, j.name+ext), func(w io.Writer) error { _, err := wt.WriteTo(w); return err })
-			}
-			if err != nil {
-				return fmt.Errorf("plot %s: %w", j.name, err)
-			}
+		if err := savePlot(dir, j.name, p); err != nil {
+			return err
 		}
 	}
 	return modelPlot(dir, b)
@@ -330,6 +324,20 @@ func modelPlot(dir string, b *Bundle) error {
 		bottom.Draw(canvases[1][0])
 		if err := writeFile(filepath.Join(dir, PlotModel+ext), func(w io.Writer) error { _, err := c.WriteTo(w); return err }); err != nil {
 			return err
+		}
+	}
+	return nil
+}
+
+// savePlot writes a plot as name.svg and name.png.
+func savePlot(dir, name string, p *plot.Plot) error {
+	for _, ext := range []string{".svg", ".png"} {
+		wt, err := p.WriterTo(plotW, plotH, ext[1:])
+		if err == nil {
+			err = writeFile(filepath.Join(dir, name+ext), func(w io.Writer) error { _, err := wt.WriteTo(w); return err })
+		}
+		if err != nil {
+			return fmt.Errorf("plot %s: %w", name, err)
 		}
 	}
 	return nil

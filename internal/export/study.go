@@ -2,13 +2,10 @@ package export
 
 import (
 	"encoding/json"
-	"errors"
 	"fmt"
 	"image/color"
 	"io"
-	"io/fs"
 	"math"
-	"os"
 	"path/filepath"
 	"strings"
 
@@ -38,12 +35,7 @@ var palette = []color.Color{blue, red, green, color.RGBA{R: 150, G: 90, B: 10, A
 // WriteStudy writes a study folder: study.json, study.md and the plots. An
 // existing folder is refused unless force.
 func WriteStudy(dir string, force bool, st *study.Study, runs []study.Run) error {
-	if _, err := os.Stat(dir); err == nil && !force {
-		return fmt.Errorf("%s: %w; parch does not overwrite it (use --force, or another --out)", dir, ErrExists)
-	} else if err != nil && !errors.Is(err, fs.ErrNotExist) {
-		return err
-	}
-	if err := os.MkdirAll(dir, 0o755); err != nil {
+	if err := makeFolder(dir, force); err != nil {
 		return err
 	}
 	if err := writeFile(filepath.Join(dir, FileStudyJSON), func(w io.Writer) error {
@@ -71,14 +63,8 @@ func WriteStudy(dir string, force bool, st *study.Study, runs []study.Run) error
 		if p == nil {
 			continue
 		}
-		for _, ext := range []string{".svg", ".png"} {
-			wt, err := p.WriterTo(plotW, plotH, ext[1:])
-			if err == nil {
-				err = writeFile(filepath.Join(dir, pl.name+ext), func(w io.Writer) error { _, err := wt.WriteTo(w); return err })
-			}
-			if err != nil {
-				return fmt.Errorf("plot %s: %w", pl.name, err)
-			}
+		if err := savePlot(dir, pl.name, p); err != nil {
+			return err
 		}
 		drawn = append(drawn, pl.name)
 	}
