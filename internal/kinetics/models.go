@@ -5,6 +5,7 @@ import (
 	"math"
 	"sort"
 	"strings"
+	"sync"
 )
 
 // Model is a thin-layer drying model MR(t) (DOMAIN.md table, names and
@@ -275,15 +276,26 @@ func subsample(t, v []float64, n int) ([]float64, []float64) {
 // FitAll fits the six models; models that cannot be fitted are left out
 // with the reason in the returned map.
 func FitAll(t, mr []float64) ([]*Fit, map[string]string) {
+	// The models are independent: fitted side by side, kept in their order.
+	res := make([]*Fit, len(Models))
+	errs := make([]error, len(Models))
+	var wg sync.WaitGroup
+	for i, m := range Models {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			res[i], errs[i] = FitModel(m, t, mr)
+		}()
+	}
+	wg.Wait()
 	var fits []*Fit
 	failed := map[string]string{}
-	for _, m := range Models {
-		f, err := FitModel(m, t, mr)
-		if err != nil {
-			failed[m.Name] = err.Error()
+	for i, m := range Models {
+		if errs[i] != nil {
+			failed[m.Name] = errs[i].Error()
 			continue
 		}
-		fits = append(fits, f)
+		fits = append(fits, res[i])
 	}
 	return fits, failed
 }
