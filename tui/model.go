@@ -3,6 +3,7 @@ package tui
 import (
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -256,6 +257,17 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 // addEvents stores readings and follows the source's state.
 func (m *Model) addEvents(b []ingest.Event) {
 	now := m.opt.Now()
+	// A long backlog (a log opened after hours of recording) is caught up
+	// without working out live figures for readings no one will see: only
+	// the newest liveTail get them; the full analysis covers the rest.
+	readings := 0
+	for i := range b {
+		if b[i].Kind == ingest.KindReading {
+			readings++
+		}
+	}
+	quiet := max(0, readings-liveTail)
+	m.grow(readings)
 	for i := range b {
 		e := &b[i]
 		switch e.Kind {
@@ -274,9 +286,14 @@ func (m *Model) addEvents(b []ingest.Event) {
 				m.live.Remove(m.pendingRemovals[0].g)
 				m.pendingRemovals = m.pendingRemovals[1:]
 			}
-			m.livePt = m.live.Add(h, e.MassG, st)
-			if m.livePt.Kept {
-				m.lastGood = m.livePt
+			if quiet > 0 {
+				quiet--
+				m.live.CatchUp(h, e.MassG, st)
+			} else {
+				m.livePt = m.live.Add(h, e.MassG, st)
+				if m.livePt.Kept {
+					m.lastGood = m.livePt
+				}
 			}
 			if m.state != stateLive && m.state != stateEnded && m.state != stateStopped {
 				m.state, m.stateSince, m.stateDetail = stateLive, now, ""
@@ -693,4 +710,19 @@ func (m *Model) applySetup(params map[string]any) {
 	m.setupGen++
 	m.rebuildLive()
 	m.dirty, m.lastRun = true, m.lastRun.AddDate(-1, 0, 0)
+}
+
+// liveTail is how many of the newest readings of a batch get live figures.
+const liveTail = 2000
+
+// grow makes room for n more readings at once (a long log arrives in one
+// batch: no growing reading by reading).
+func (m *Model) grow(n int) {
+	if n < 1024 {
+		return
+	}
+	m.th = slices.Grow(m.th, n)
+	m.raw = slices.Grow(m.raw, n)
+	m.stable = slices.Grow(m.stable, n)
+	m.air = slices.Grow(m.air, n)
 }

@@ -588,3 +588,28 @@ func checkGolden(t *testing.T, file, got string, width int) {
 		t.Errorf("screen differs from %s:\n%s", file, got)
 	}
 }
+
+// BenchmarkOpenLog1M: a dashboard opened on a 1,000,000-reading log (an
+// invented curve): the whole backlog in one batch, then the first full
+// analysis, which the figures come from.
+func BenchmarkOpenLog1M(b *testing.B) {
+	var evs []ingest.Event
+	for i := 0; i < 1_000_000; i++ {
+		evs = append(evs, ingest.Event{T: start.Add(time.Duration(i) * 100 * time.Millisecond), Kind: ingest.KindReading,
+			MassG: 27 + 170/(1+float64(i)/2e5), Stable: ingest.Stable})
+	}
+	for b.Loop() {
+		m := newTestModel(&memSink{}, start.Add(28*time.Hour))
+		next, cmd := m.Update(eventsMsg(evs))
+		m = next.(Model)
+		for _, c := range flatten(cmd) {
+			if am, ok := c().(analysisMsg); ok {
+				next, _ = m.Update(am)
+				m = next.(Model)
+			}
+		}
+		if m.res == nil || len(m.th) != len(evs) {
+			b.Fatal("no figures")
+		}
+	}
+}

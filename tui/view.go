@@ -233,7 +233,7 @@ func (m *Model) figures(w, h int) []string {
 	if m.res != nil && m.res.ConstantRate != nil && !m.res.ConstantRate.Ongoing && !math.IsNaN(m.res.ConstantRate.CriticalDB) {
 		xc = fmt.Sprintf("Xc %.2f", m.res.ConstantRate.CriticalDB)
 	}
-	out = append(out, rowFit("period", string(m.lastGood.Period), xc))
+	out = append(out, rowFit("period", string(m.period()), xc))
 	out = append(out, m.projectionLines(row, w)...)
 	if m.res != nil && m.res.Best != nil {
 		out = append(out, rowFit("model", m.res.Best.Model.Title, fmt.Sprintf("R² %.4f", m.res.Best.R2)))
@@ -481,4 +481,20 @@ func wrapWords(s string, w int) []string {
 		out = append(out, line)
 	}
 	return out
+}
+
+// period is the drying period now: the analysis's when it has seen every
+// reading (as the report says it), the live estimate's in between.
+func (m *Model) period() kinetics.Period {
+	r := m.res
+	if r == nil || m.resN != len(m.th) || len(m.th) < 10 {
+		return m.lastGood.Period
+	}
+	switch {
+	case !math.IsNaN(r.EndOfRunH):
+		return kinetics.PeriodSteady
+	case r.ConstantRate != nil && r.ConstantRate.Ongoing:
+		return kinetics.PeriodConstant
+	}
+	return kinetics.PeriodFalling
 }

@@ -137,6 +137,30 @@ func (l *Live) Add(tH, massG float64, stable int8) LivePoint {
 	return p
 }
 
+// Catch up takes a reading of a backlog (a long log opened at once) with
+// the checks that need no fit: order, stability, sign. Its figures are not
+// worked out; the caller goes on with Add for the newest readings, whose
+// figures are shown, and the full analysis judges the rest.
+func (l *Live) CatchUp(tH, massG float64, stable int8) bool {
+	net := massG - l.tare
+	if stable < 0 || !(net > 0) || (l.n > 0 && !(tH > l.lastT())) {
+		return false
+	}
+	if l.n-l.seg >= 2 {
+		_, m1 := l.at(0)
+		_, m2 := l.at(1)
+		l.d2[l.nd2%liveWindow] = math.Abs(net - 2*m1 + m2)
+		l.nd2++
+	}
+	first := l.n == 0
+	l.keep(tH, net)
+	if first {
+		p := LivePoint{}
+		l.estimate(&p, tH, net) // the solids and the start
+	}
+	return true
+}
+
 // stepped reports whether the readings held off the trend are a step: six
 // in a row that agree with each other. Then a new segment starts with them:
 // fits look only after the step, and the moisture follows the new level
