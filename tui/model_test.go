@@ -61,25 +61,7 @@ func demoSetup() kinetics.Setup {
 
 // simEvents are the first hours of the invented demo run as source events.
 func simEvents(t *testing.T, hours float64) []ingest.Event {
-	t.Helper()
-	mod, err := simulate.NewModel(simulate.AppleRings())
-	if err != nil {
-		t.Fatal(err)
-	}
-	var out []ingest.Event
-	mod.Run(1, func(s simulate.Sample) bool {
-		if s.ElapsedS/3600 > hours {
-			return false
-		}
-		st := ingest.Stable
-		if !s.Stable {
-			st = ingest.Unstable
-		}
-		out = append(out, ingest.Event{T: start.Add(time.Duration(s.ElapsedS * 1e9)), Kind: ingest.KindReading,
-			MassG: s.MassG, Stable: st, Raw: s.Raw, Channels: map[string]float64{"air_temp_c": s.AirTempC}})
-		return true
-	})
-	return out
+	return scenarioEvents(t, simulate.AppleRings(), hours)
 }
 
 func newTestModel(sink NoteSink, now time.Time) Model {
@@ -421,7 +403,12 @@ func scenarioEvents(t *testing.T, sc simulate.Scenario, hours float64) []ingest.
 		if s.ElapsedS/3600 > hours {
 			return false
 		}
-		out = append(out, ingest.Event{T: start.Add(time.Duration(s.ElapsedS * 1e9)), Kind: ingest.KindReading, MassG: s.MassG, Stable: ingest.Stable})
+		st := ingest.Stable
+		if !s.Stable {
+			st = ingest.Unstable
+		}
+		out = append(out, ingest.Event{T: start.Add(time.Duration(s.ElapsedS * 1e9)), Kind: ingest.KindReading,
+			MassG: s.MassG, Stable: st, Raw: s.Raw, Channels: map[string]float64{"air_temp_c": s.AirTempC}})
 		return true
 	})
 	return out
