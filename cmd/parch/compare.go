@@ -88,11 +88,12 @@ func runCompare(args []string, stdout, stderr io.Writer) error {
 			return fmt.Errorf("%s: %v", path, err)
 		}
 		r := study.Run{File: path, Label: labels[filepath.Clean(path)], AirTempC: math.NaN(), Sum: report.Build(run, res, setup, math.NaN()), Setup: export.SetupMap(setup), Res: res, TimeH: run.Series.TimeH}
+		channel := study.AirTempFromChannel(run.Series.TimeH, run.Channels)
 		switch v, ok := run.Params[report.KeyAirTemp]; {
 		case ok:
 			r.AirTempC, r.TempFrom = v, "setup"
-		case !math.IsNaN(study.AirTempFromChannel(run.Series.TimeH, run.Channels)):
-			r.AirTempC, r.TempFrom = study.AirTempFromChannel(run.Series.TimeH, run.Channels), "air channel (median after the first 10 % of the run)"
+		case !math.IsNaN(channel):
+			r.AirTempC, r.TempFrom = channel, "air channel (median after the first 10 % of the run)"
 		default:
 			if v, ok := flagParams[report.KeyAirTemp]; ok {
 				r.AirTempC, r.TempFrom = v, "--air-temp"

@@ -14,6 +14,7 @@ import (
 	"gonum.org/v1/plot/vg"
 
 	"parch/internal/report"
+	"parch/internal/safetext"
 	"parch/internal/study"
 )
 
@@ -273,7 +274,7 @@ func StudyText(w io.Writer, st *study.Study) error {
 	if len(st.Warnings) > 0 {
 		p("\nWarnings\n")
 		for _, wn := range st.Warnings {
-			p("  - %s\n", safeLine(wn))
+			p("  - %s\n", safetext.Terminal(wn))
 		}
 	}
 	p("\nCautions\n")
@@ -291,8 +292,6 @@ func clip(s string, n int) string {
 	}
 	return string(r[:n-1]) + "…"
 }
-
-func safeLine(s string) string { return mdEscape(s) }
 
 // studyMarkdown is study.md: each run's setup and figures, the replicate
 // and Arrhenius tables, the plots, the cautions.

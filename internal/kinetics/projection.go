@@ -47,15 +47,6 @@ func NoProjection(why string) Projection {
 	return Projection{TargetH: nan, LowH: nan, HighH: nan, AsymptoteG: nan, WindowFromH: nan, Level: ProjectionLevel, Method: ProjNone, Why: why}
 }
 
-func sliceFrom(t, m []float64, from float64) ([]float64, []float64) {
-	for i := range t {
-		if t[i] >= from {
-			return t[i:], m[i:]
-		}
-	}
-	return nil, nil
-}
-
 // expFit is m(t) = mInf + A·exp(−k (t − t0)).
 type expFit struct {
 	mInf, a, k, t0 float64

@@ -125,37 +125,36 @@ func Build(runs []Run) (*Study, error) {
 	for _, r := range runs {
 		st.Runs = append(st.Runs, runOut(r))
 	}
-	st.Groups = groups(runs)
+	st.Groups = groups(runs, st.Runs)
 	for _, g := range st.Groups {
-		if w := scatterWarning(g, runs); w != "" {
+		if w := scatterWarning(g, st.Runs); w != "" {
 			st.Warnings = append(st.Warnings, w)
 		}
 	}
 	// Temperature dependence, per product.
-	byLabel := map[string][]Run{}
+	byLabel := map[string][]RunOut{}
 	var labels []string
-	for i, r := range runs {
-		if st.Runs[i].Excluded != "" {
+	for _, o := range st.Runs {
+		if o.Excluded != "" {
 			continue
 		}
-		p := Prefix(r.Label)
+		p := Prefix(o.Label)
 		if _, ok := byLabel[p]; !ok {
 			labels = append(labels, p)
 		}
-		byLabel[p] = append(byLabel[p], r)
+		byLabel[p] = append(byLabel[p], o)
 	}
-	fitOf := func(label string, rs []Run, k bool) *ArrheniusOut {
+	fitOf := func(label string, rs []RunOut, k bool) *ArrheniusOut {
 		var pts []Point
 		param := "deff_m2_per_s"
 		if k {
 			param = "lewis_k_per_h"
 		}
-		for _, r := range rs {
-			o := runOut(r)
+		for _, o := range rs {
 			if k {
-				pts = append(pts, Point{Label: r.Label, AirTempC: r.AirTempC, Value: float64(o.LewisK), StdErr: math.NaN()})
+				pts = append(pts, Point{Label: o.Label, AirTempC: float64(o.AirTempC), Value: float64(o.LewisK), StdErr: math.NaN()})
 			} else {
-				pts = append(pts, Point{Label: r.Label, AirTempC: r.AirTempC, Value: float64(o.DeffM2PerS), StdErr: float64(o.DeffSE)})
+				pts = append(pts, Point{Label: o.Label, AirTempC: float64(o.AirTempC), Value: float64(o.DeffM2PerS), StdErr: float64(o.DeffSE)})
 			}
 		}
 		f, err := FitArrhenius(param, pts)
@@ -234,7 +233,7 @@ func runOut(r Run) RunOut {
 
 // groups gathers replicates: one label prefix, air temperatures within
 // ReplicateTolC of the group's first.
-func groups(runs []Run) []GroupOut {
+func groups(runs []Run, outs []RunOut) []GroupOut {
 	idx := make([]int, len(runs))
 	for i := range idx {
 		idx[i] = i
@@ -255,7 +254,7 @@ func groups(runs []Run) []GroupOut {
 		g := GroupOut{Label: Prefix(runs[cur[0]].Label)}
 		var temps, ttt, deff, pk, pn []float64
 		for _, i := range cur {
-			o := runOut(runs[i])
+			o := outs[i]
 			g.Runs = append(g.Runs, runs[i].File)
 			temps = append(temps, runs[i].AirTempC)
 			ttt = append(ttt, float64(o.TimeToTargetH))
@@ -313,29 +312,27 @@ func meanSD(v []float64) Stat {
 // scatterWarning says when replicates' diffusivities differ by more than
 // their own standard errors explain: a reduced chi-square above 3 (about
 // the 95th percentile for 2 to 4 replicates; common practice).
-func scatterWarning(g GroupOut, runs []Run) string {
+func scatterWarning(g GroupOut, outs []RunOut) string {
 	if g.DeffM2PerS.N < 2 {
 		return ""
+	}
+	in := map[string]bool{}
+	for _, f := range g.Runs {
+		in[f] = true
 	}
 	m := float64(g.DeffM2PerS.Mean)
 	var chi2 float64
 	n := 0
-	for _, r := range runs {
-		for _, f := range g.Runs {
-			if r.File != f {
-				continue
-			}
-			o := runOut(r)
-			d, se := float64(o.DeffM2PerS), float64(o.DeffSE)
-			if math.IsNaN(d) {
-				continue // not fitted: not in the comparison
-			}
-			if !(se > 0) {
-				return ""
-			}
-			chi2 += (d - m) * (d - m) / (se * se)
-			n++
+	for _, o := range outs {
+		d, se := float64(o.DeffM2PerS), float64(o.DeffSE)
+		if !in[o.File] || math.IsNaN(d) {
+			continue // not in the group, or not fitted
 		}
+		if !(se > 0) {
+			return ""
+		}
+		chi2 += (d - m) * (d - m) / (se * se)
+		n++
 	}
 	if n < 2 || chi2/float64(n-1) <= 3 {
 		return ""
