@@ -130,7 +130,7 @@ func (s *sourceFlags) build(now time.Time) (recorder.Source, string, error) {
 		if err != nil {
 			return nil, "", err
 		}
-		return &simulate.Source{Model: m, Seed: s.seed, Speed: s.speed, Start: now}, "demo, invented run", nil
+		return &simulate.Source{Model: m, Seed: s.seed, Speed: s.speed, Start: now}, "demo", nil
 	}
 }
 

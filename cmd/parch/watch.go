@@ -257,6 +257,9 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 			}
 		}()
 		opt.Events, opt.Notes, opt.Recording, opt.Title = mb.Chan(), w, true, filepath.Base(path)+" · "+what
+		if src.demo {
+			opt.Title = "invented demo · " + filepath.Base(path) // said first: a narrow header shortens the end
+		}
 		finish = func(uiErr error) error {
 			cancelRec()
 			runErr := <-recDone
