@@ -28,7 +28,7 @@ func (s *solids) at(t float64) float64 {
 // of mass Δm taken out at mass m leaves solids m_s·(1 − Δm/m), the piece
 // having the moisture of the rest. A dry mass from an oven test is the
 // solids left at the end.
-func solidsProfile(r *Result, kind SeriesKind, setup Setup, t, smooth []float64, keep []bool, m0 float64) *solids {
+func solidsProfile(warn func(string, ...any), kind SeriesKind, setup Setup, t, smooth []float64, keep []bool, m0 float64) *solids {
 	if kind != SeriesMass {
 		return &solids{s0: 1}
 	}
@@ -42,12 +42,12 @@ func solidsProfile(r *Result, kind SeriesKind, setup Setup, t, smooth []float64,
 		}
 		j := lastKeptBefore(t, keep, rm.ElapsedH)
 		if j < 0 {
-			r.warn("removal at %.2f h is before the first reading: ignored", rm.ElapsedH)
+			warn("removal at %.2f h is before the first reading: ignored", rm.ElapsedH)
 			continue
 		}
 		mb := smooth[j]
 		if !(rm.MassG < mb) {
-			r.warn("removal of %.2f g at %.2f h is not less than the mass then (%.2f g): ignored", rm.MassG, rm.ElapsedH, mb)
+			warn("removal of %.2f g at %.2f h is not less than the mass then (%.2f g): ignored", rm.MassG, rm.ElapsedH, mb)
 			continue
 		}
 		f *= 1 - rm.MassG/mb
@@ -60,17 +60,17 @@ func solidsProfile(r *Result, kind SeriesKind, setup Setup, t, smooth []float64,
 		if !math.IsNaN(setup.InitialMoistureWB) {
 			implied := 100 * (1 - sp.s0/m0)
 			if math.Abs(implied-setup.InitialMoistureWB) > 2 {
-				r.warn("the dry mass implies an initial moisture of %.1f %% wet basis, not the %.1f %% given; the dry mass is used", implied, setup.InitialMoistureWB)
+				warn("the dry mass implies an initial moisture of %.1f %% wet basis, not the %.1f %% given; the dry mass is used", implied, setup.InitialMoistureWB)
 			}
 		}
 	case !math.IsNaN(setup.InitialMoistureWB):
 		sp.s0 = m0 * (1 - setup.InitialMoistureWB/100)
 	default:
-		r.warn("no initial moisture or dry mass given: moisture contents are not known (--initial-moisture PCT or --dry-mass G)")
+		warn("no initial moisture or dry mass given: moisture contents are not known (--initial-moisture PCT or --dry-mass G)")
 		return nil
 	}
 	if !(sp.s0 < m0) {
-		r.warn("the dry mass (%.2f g at the start) is not less than the initial mass %.2f g: check --dry-mass and --tare", sp.s0, m0)
+		warn("the dry mass (%.2f g at the start) is not less than the initial mass %.2f g: check --dry-mass and --tare", sp.s0, m0)
 		return nil
 	}
 	return sp
