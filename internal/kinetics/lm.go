@@ -14,9 +14,13 @@ var ErrTooFewPoints = errors.New("too few points")
 // lmProblem is a least-squares problem y ≈ f(t; p).
 type lmProblem struct {
 	f func(t float64, p []float64) float64
-	// grad fills g with ∂f/∂p at t; nil for a forward-difference Jacobian.
-	grad func(t float64, p, g []float64)
+	// grad fills g with ∂f/∂p at t and returns f there (one evaluation of
+	// the exponentials for both); nil for a forward-difference Jacobian.
+	grad func(t float64, p, g []float64) float64
 }
+
+// maxParams is the most parameters a model here has (Two-term, Midilli).
+const maxParams = 4
 
 // lmResult is the outcome of a Levenberg–Marquardt run.
 type lmResult struct {
@@ -36,6 +40,11 @@ func levenbergMarquardt(pr lmProblem, t, y, p0 []float64, maxIter int) lmResult 
 	n, np := len(t), len(p0)
 	p := append([]float64(nil), p0...)
 	res := lmResult{P: p}
+	if np > maxParams {
+		res.Reason = "too many parameters"
+		res.SSE = math.NaN()
+		return res
+	}
 	if n < np {
 		res.Reason = "fewer points than parameters"
 		res.SSE = math.NaN()
@@ -53,10 +62,9 @@ func levenbergMarquardt(pr lmProblem, t, y, p0 []float64, maxIter int) lmResult 
 		return s
 	}
 	g := make([]float64, np)
-	jac := func(q []float64, ti float64) {
+	jac := func(q []float64, ti float64) float64 {
 		if pr.grad != nil {
-			pr.grad(ti, q, g)
-			return
+			return pr.grad(ti, q, g)
 		}
 		f0 := pr.f(ti, q)
 		for k := range q {
@@ -66,20 +74,31 @@ func levenbergMarquardt(pr lmProblem, t, y, p0 []float64, maxIter int) lmResult 
 			g[k] = (pr.f(ti, q) - f0) / h
 			q[k] = old
 		}
+		return f0
 	}
 	jtj := mat.NewSymDense(np, nil)
 	jtr := mat.NewVecDense(np, nil)
+	// The normal equations are summed in plain arrays (np ≤ maxParams) and
+	// copied into the matrices once: At/SetSym per point cost more than the
+	// model.
+	var sa [maxParams][maxParams]float64
+	var sr [maxParams]float64
 	build := func(q []float64) {
-		jtj.Zero()
-		jtr.Zero()
+		sa, sr = [maxParams][maxParams]float64{}, [maxParams]float64{}
 		for i := range t {
-			jac(q, t[i])
-			r := y[i] - pr.f(t[i], q)
+			r := y[i] - jac(q, t[i])
 			for a := 0; a < np; a++ {
-				jtr.SetVec(a, jtr.AtVec(a)+g[a]*r)
+				ga := g[a]
+				sr[a] += ga * r
 				for b := a; b < np; b++ {
-					jtj.SetSym(a, b, jtj.At(a, b)+g[a]*g[b])
+					sa[a][b] += ga * g[b]
 				}
+			}
+		}
+		for a := 0; a < np; a++ {
+			jtr.SetVec(a, sr[a])
+			for b := a; b < np; b++ {
+				jtj.SetSym(a, b, sa[a][b])
 			}
 		}
 	}

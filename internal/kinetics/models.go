@@ -6,6 +6,8 @@ import (
 	"sort"
 	"strings"
 	"sync"
+
+	"gonum.org/v1/gonum/mat"
 )
 
 // Model is a thin-layer drying model MR(t) (DOMAIN.md table, names and
@@ -16,7 +18,7 @@ type Model struct {
 	Source string   // the publication
 	Params []string // parameter names, in order
 	f      func(t float64, p []float64) float64
-	grad   func(t float64, p, g []float64)
+	grad   func(t float64, p, g []float64) float64 // fills ∂f/∂p, returns f
 	start  func(t, mr []float64) [][]float64 // candidate starting values
 }
 
@@ -28,8 +30,10 @@ var Models = []*Model{
 	{
 		Name: "lewis", Title: "Lewis (Newton)", Source: "Lewis 1921", Params: []string{"k"},
 		f: func(t float64, p []float64) float64 { return math.Exp(-p[0] * t) },
-		grad: func(t float64, p, g []float64) {
-			g[0] = -t * math.Exp(-p[0]*t)
+		grad: func(t float64, p, g []float64) float64 {
+			e := math.Exp(-p[0] * t)
+			g[0] = -t * e
+			return e
 		},
 		start: func(t, mr []float64) [][]float64 {
 			_, k := logLinear(t, mr, 0, true)
@@ -39,7 +43,7 @@ var Models = []*Model{
 	{
 		Name: "page", Title: "Page", Source: "Page 1949", Params: []string{"k", "n"},
 		f: func(t float64, p []float64) float64 { return math.Exp(-p[0] * pow(t, p[1])) },
-		grad: func(t float64, p, g []float64) {
+		grad: func(t float64, p, g []float64) float64 {
 			tn := pow(t, p[1])
 			e := math.Exp(-p[0] * tn)
 			g[0] = -tn * e
@@ -47,6 +51,7 @@ var Models = []*Model{
 			if t > 0 {
 				g[1] = -p[0] * tn * math.Log(t) * e
 			}
+			return e
 		},
 		start: func(t, mr []float64) [][]float64 {
 			k, n := pageLinear(t, mr)
@@ -57,10 +62,11 @@ var Models = []*Model{
 	{
 		Name: "henderson_pabis", Title: "Henderson and Pabis", Source: "Henderson and Pabis 1961", Params: []string{"a", "k"},
 		f: func(t float64, p []float64) float64 { return p[0] * math.Exp(-p[1]*t) },
-		grad: func(t float64, p, g []float64) {
+		grad: func(t float64, p, g []float64) float64 {
 			e := math.Exp(-p[1] * t)
 			g[0] = e
 			g[1] = -p[0] * t * e
+			return p[0] * e
 		},
 		start: func(t, mr []float64) [][]float64 {
 			a, k := logLinear(t, mr, 0, false)
@@ -70,11 +76,12 @@ var Models = []*Model{
 	{
 		Name: "logarithmic", Title: "Logarithmic", Source: "Yagcioglu et al. 1999", Params: []string{"a", "k", "c"},
 		f: func(t float64, p []float64) float64 { return p[0]*math.Exp(-p[1]*t) + p[2] },
-		grad: func(t float64, p, g []float64) {
+		grad: func(t float64, p, g []float64) float64 {
 			e := math.Exp(-p[1] * t)
 			g[0] = e
 			g[1] = -p[0] * t * e
 			g[2] = 1
+			return p[0]*e + p[2]
 		},
 		start: func(t, mr []float64) [][]float64 {
 			lo := minOf(mr)
@@ -90,30 +97,20 @@ var Models = []*Model{
 	{
 		Name: "two_term", Title: "Two-term", Source: "Henderson 1974", Params: []string{"a", "k0", "b", "k1"},
 		f: func(t float64, p []float64) float64 { return p[0]*math.Exp(-p[1]*t) + p[2]*math.Exp(-p[3]*t) },
-		grad: func(t float64, p, g []float64) {
+		grad: func(t float64, p, g []float64) float64 {
 			e0, e1 := math.Exp(-p[1]*t), math.Exp(-p[3]*t)
 			g[0] = e0
 			g[1] = -p[0] * t * e0
 			g[2] = e1
 			g[3] = -p[2] * t * e1
+			return p[0]*e0 + p[2]*e1
 		},
-		start: func(t, mr []float64) [][]float64 {
-			// A fast and a slow term: try a few splits, since the sum of
-			// squares has several valleys.
-			a, k := logLinear(t, mr, 0, false)
-			var out [][]float64
-			for _, fast := range []float64{1.5, 3, 10, 30, 100} {
-				for _, frac := range []float64{0.2, 0.5, 0.8} {
-					out = append(out, []float64{frac * a, fast * k, (1 - frac) * a, 0.8 * k})
-				}
-			}
-			return out
-		},
+		start: twoTermStarts,
 	},
 	{
 		Name: "midilli", Title: "Midilli et al.", Source: "Midilli, Kucuk and Yapar 2002", Params: []string{"a", "k", "n", "b"},
 		f: func(t float64, p []float64) float64 { return p[0]*math.Exp(-p[1]*pow(t, p[2])) + p[3]*t },
-		grad: func(t float64, p, g []float64) {
+		grad: func(t float64, p, g []float64) float64 {
 			tn := pow(t, p[2])
 			e := math.Exp(-p[1] * tn)
 			g[0] = e
@@ -123,6 +120,7 @@ var Models = []*Model{
 				g[2] = -p[0] * p[1] * tn * math.Log(t) * e
 			}
 			g[3] = t
+			return p[0]*e + p[3]*t
 		},
 		start: func(t, mr []float64) [][]float64 {
 			k, n := pageLinear(t, mr)
@@ -130,6 +128,94 @@ var Models = []*Model{
 			return [][]float64{{1, k, n, 0}, {1, kl, 1, 0}}
 		},
 	},
+}
+
+// twoTermStarts finds Two-term's starting values by separable least
+// squares (Golub and Pereyra 1973): for fixed k0 and k1 the amplitudes a
+// and b are linear, so each pair on a log grid around the single-term k
+// costs two dot products, and the sum of squares over the whole grid shows
+// its valleys. The best few, the fast term first, are where the full fit
+// starts. Heuristic splits of one k missed the valley of a run with
+// unannounced drops, and tried to the iteration limit where they wandered.
+func twoTermStarts(t, mr []float64) [][]float64 {
+	_, kl := logLinear(t, mr, 0, false)
+	const nk = 25
+	ks := make([]float64, nk)
+	e := make([][]float64, nk)
+	for i := range ks {
+		ks[i] = kl * math.Pow(10, -2+4*float64(i)/(nk-1)) // kl/100 to 100·kl
+		e[i] = make([]float64, len(t))
+		for j, tj := range t {
+			e[i][j] = math.Exp(-ks[i] * tj)
+		}
+	}
+	dot := func(a, b []float64) float64 {
+		s := 0.0
+		for j := range a {
+			s += a[j] * b[j]
+		}
+		return s
+	}
+	yy := dot(mr, mr)
+	ey := make([]float64, nk)
+	ee := make([][]float64, nk)
+	for i := range ks {
+		ey[i] = dot(e[i], mr)
+		ee[i] = make([]float64, nk)
+		for j := 0; j <= i; j++ {
+			ee[i][j] = dot(e[i], e[j])
+			ee[j][i] = ee[i][j]
+		}
+	}
+	type cand struct {
+		i, j      int // slow, fast
+		a, b, sse float64
+	}
+	var cs []cand
+	for i := 0; i < nk; i++ {
+		for j := i + 1; j < nk; j++ {
+			// slow term i (a), fast term j (b): normal equations, 2×2.
+			det := ee[i][i]*ee[j][j] - ee[i][j]*ee[i][j]
+			if !(det > 1e-12*ee[i][i]*ee[j][j]) {
+				continue
+			}
+			a := (ey[i]*ee[j][j] - ey[j]*ee[i][j]) / det
+			b := (ey[j]*ee[i][i] - ey[i]*ee[i][j]) / det
+			sse := yy - a*ey[i] - b*ey[j] // at the least-squares solution
+			cs = append(cs, cand{i, j, a, b, sse})
+		}
+	}
+	sort.Slice(cs, func(x, y int) bool { return cs[x].sse < cs[y].sse })
+	var out [][]float64
+	var took []cand
+	for _, c := range cs {
+		near := false
+		for _, d := range took {
+			if abs(c.i-d.i) <= 2 && abs(c.j-d.j) <= 2 {
+				near = true
+			}
+		}
+		if near {
+			continue
+		}
+		took = append(took, c)
+		out = append(out, []float64{c.b, ks[c.j], c.a, ks[c.i]})
+		if len(out) == 3 {
+			break
+		}
+	}
+	if len(out) == 0 {
+		a, k := logLinear(t, mr, 0, false)
+		out = append(out, []float64{0.5 * a, 3 * k, 0.5 * a, k / 3})
+	}
+	return out
+}
+
+func abs(i int) int {
+	if i < 0 {
+		return -i
+	}
+	return i
 }
 
 // ModelByName finds a model.
@@ -180,23 +266,32 @@ func FitModel(m *Model, t, mr []float64) (*Fit, error) {
 		return nil, fmt.Errorf("kinetics: %s needs at least %d points, has %d: %w", m.Name, np+1, len(t), ErrTooFewPoints)
 	}
 	starts := m.start(t, mr)
-	// Many points: try the starts on an even subsample, then refine only the
-	// best on all the points (the multistart is what costs).
+	// Many points: try the starts on an even subsample, then carry only the
+	// best on to all the points (the multistart is what costs).
 	if len(t) > 4*subsampleFit && len(starts) > 1 {
 		st, sm := subsample(t, mr, subsampleFit)
-		var pick *lmResult
+		type tried struct {
+			p0  []float64
+			sse float64
+		}
+		var ok []tried
 		for _, p0 := range starts {
 			if !finite(p0...) {
 				continue
 			}
-			r := levenbergMarquardt(lmProblem{f: m.f, grad: m.grad}, st, sm, p0, 500)
-			if !math.IsNaN(r.SSE) && (pick == nil || r.SSE < pick.SSE) {
-				rr := r
-				pick = &rr
+			r := levenbergMarquardt(lmProblem{f: m.f, grad: m.grad}, st, sm, p0, startIter)
+			if !math.IsNaN(r.SSE) {
+				ok = append(ok, tried{r.P, r.SSE})
 			}
 		}
-		if pick != nil {
-			starts = [][]float64{pick.P}
+		// The few best go on: a subsample can rank two valleys close
+		// together the wrong way round.
+		sort.SliceStable(ok, func(i, j int) bool { return ok[i].sse < ok[j].sse })
+		if len(ok) > 0 {
+			starts = starts[:0:0]
+			for _, c := range ok[:min(len(ok), refineStarts)] {
+				starts = append(starts, c.p0)
+			}
 		}
 	}
 	var best *lmResult
@@ -215,6 +310,21 @@ func FitModel(m *Model, t, mr []float64) (*Fit, error) {
 	}
 	if best == nil {
 		return nil, fmt.Errorf("kinetics: %s: no usable starting values (moisture ratios outside (0, 1]?)", m.Name)
+	}
+	if m.Name == "two_term" && best.P[1] < best.P[3] {
+		// One order for one curve: the fast term first (k0 > k1).
+		p := best.P
+		p[0], p[1], p[2], p[3] = p[2], p[3], p[0], p[1]
+		if best.Cov != nil {
+			perm := []int{2, 3, 0, 1}
+			c := mat.NewSymDense(4, nil)
+			for i := 0; i < 4; i++ {
+				for j := i; j < 4; j++ {
+					c.SetSym(i, j, best.Cov.At(perm[i], perm[j]))
+				}
+			}
+			best.Cov = c
+		}
 	}
 	f := &Fit{Model: m, P: best.P, N: len(t), SSE: best.SSE, Converged: best.Converged, Iter: best.Iter, Note: best.Reason,
 		Params: map[string]float64{}, StdErr: map[string]float64{}}
@@ -260,8 +370,16 @@ func FitModel(m *Model, t, mr []float64) (*Fit, error) {
 	return f, nil
 }
 
-// subsampleFit is the size of the subsample the starting values are tried on.
+// subsampleFit is the size of the subsample the starting values are tried
+// on.
 const subsampleFit = 1000
+
+// startIter bounds each start's iterations on the subsample; the best are
+// then carried on, on every point, to 500.
+const startIter = 150
+
+// refineStarts is how many of the best starts are carried on to all points.
+const refineStarts = 2
 
 func subsample(t, v []float64, n int) ([]float64, []float64) {
 	step := float64(len(t)-1) / float64(n-1)

@@ -61,11 +61,12 @@ func fitExpAsymptote(t, m []float64, t0, fixed float64) *expFit {
 		return fitExpFixed(t, m, t0, fixed)
 	}
 	f := func(ti float64, p []float64) float64 { return p[0] + p[1]*math.Exp(-p[2]*(ti-t0)) }
-	g := func(ti float64, p, gr []float64) {
+	g := func(ti float64, p, gr []float64) float64 {
 		e := math.Exp(-p[2] * (ti - t0))
 		gr[0] = 1
 		gr[1] = e
 		gr[2] = -p[1] * (ti - t0) * e
+		return p[0] + p[1]*e
 	}
 	// Start: asymptote below the last mass, k from the mean log slope.
 	n := len(t)
@@ -97,10 +98,11 @@ func fitExpAsymptote(t, m []float64, t0, fixed float64) *expFit {
 
 func fitExpFixed(t, m []float64, t0, mInf float64) *expFit {
 	f := func(ti float64, p []float64) float64 { return mInf + p[0]*math.Exp(-p[1]*(ti-t0)) }
-	g := func(ti float64, p, gr []float64) {
+	g := func(ti float64, p, gr []float64) float64 {
 		e := math.Exp(-p[1] * (ti - t0))
 		gr[0] = e
 		gr[1] = -p[0] * (ti - t0) * e
+		return mInf + p[0]*e
 	}
 	// Starting values from a straight line in ln(m − m∞), scaled to about
 	// 1 at the first point (logLinear expects moisture ratios).
