@@ -215,23 +215,22 @@ func indexAt(t []float64, keep []bool, at float64) int {
 	return best
 }
 
-// smoothSegments runs SmoothRate on each stretch between steps.
+// smoothSegments runs SmoothRate on each stretch between steps. The
+// times increase, so a stretch is a run of readings.
 func smoothSegments(t, m []float64, keep []bool, breaks []float64, sd float64) ([]float64, []float64) {
 	n := len(t)
 	smooth, rate := nanSlice(n), nanSlice(n)
-	bounds := append([]float64{math.Inf(-1)}, breaks...)
-	bounds = append(bounds, math.Inf(1))
-	for b := 0; b+1 < len(bounds); b++ {
-		seg := make([]bool, n)
-		for i := range t {
-			seg[i] = keep[i] && t[i] >= bounds[b] && t[i] < bounds[b+1]
-		}
-		sm, rt := SmoothRate(t, m, seg, sd)
-		for i := range t {
-			if seg[i] {
-				smooth[i], rate[i] = sm[i], rt[i]
+	lo := 0
+	for b := 0; b <= len(breaks); b++ {
+		hi := n
+		if b < len(breaks) {
+			hi = lo
+			for hi < n && t[hi] < breaks[b] {
+				hi++
 			}
 		}
+		smoothInto(t, m, keep, lo, hi, sd, smooth, rate)
+		lo = hi
 	}
 	return smooth, rate
 }
@@ -302,17 +301,6 @@ func nanSlice(n int) []float64 {
 		s[i] = math.NaN()
 	}
 	return s
-}
-
-func maskNaN(v []float64, keep []bool) []float64 {
-	out := make([]float64, len(v))
-	for i := range v {
-		out[i] = math.NaN()
-		if keep[i] {
-			out[i] = v[i]
-		}
-	}
-	return out
 }
 
 // checkRemovals warns when a declared removal has no drop on the balance to

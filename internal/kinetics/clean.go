@@ -49,16 +49,23 @@ func NoiseSD(m []float64) float64 {
 	if len(m) < 5 {
 		return math.NaN()
 	}
-	d := make([]float64, 0, len(m)-2)
-	for i := 1; i+1 < len(m); i++ {
+	// At most noiseSample second differences, evenly spaced over the run:
+	// the MAD of 10^5 of them is within about 0.5 % of its value, and a
+	// week at 10 Hz would otherwise sort six million.
+	step := max(1, (len(m)-2+noiseSample-1)/noiseSample)
+	d := make([]float64, 0, (len(m)-2)/step+1)
+	for i := 1; i+1 < len(m); i += step {
 		d = append(d, m[i+1]-2*m[i]+m[i-1])
 	}
-	med := median(d)
+	med := medianInPlace(d)
 	for i := range d {
 		d[i] = math.Abs(d[i] - med)
 	}
-	return 1.4826 * median(d) / math.Sqrt(6)
+	return 1.4826 * medianInPlace(d) / math.Sqrt(6)
 }
+
+// noiseSample bounds the second differences NoiseSD takes.
+const noiseSample = 1 << 17
 
 // Resolution guesses the balance resolution: the smallest non-zero step
 // between readings, on a decimal grid.
@@ -109,45 +116,131 @@ func (tr *trend) at(t float64) float64 {
 	return km[j-1] + f*(km[j]-km[j-1])
 }
 
+// cursor evaluates a trend at times that do not decrease, in constant time
+// each: it walks the segments and knots forward instead of searching them.
+// It gives what trend.at gives.
+type cursor struct {
+	tr        *trend
+	s         int // segment: the number of breaks at or before t
+	lo, hi, j int // knots of segment s are [lo, hi); j the knot searched to
+}
+
+func (tr *trend) cursor() *cursor {
+	c := &cursor{tr: tr, s: -1}
+	return c
+}
+
+func (c *cursor) at(t float64) float64 {
+	tr := c.tr
+	s := max(c.s, 0)
+	for s < len(tr.breaks) && tr.breaks[s] <= t {
+		s++
+	}
+	if s != c.s {
+		c.s = s
+		c.lo = c.hi
+		if s == 0 || c.lo > len(tr.seg) {
+			c.lo = 0
+		}
+		for c.lo < len(tr.seg) && tr.seg[c.lo] < s {
+			c.lo++
+		}
+		c.hi = c.lo
+		for c.hi < len(tr.seg) && tr.seg[c.hi] <= s {
+			c.hi++
+		}
+		c.j = c.lo
+	}
+	lo, hi := c.lo, c.hi
+	if lo >= hi {
+		return math.NaN()
+	}
+	if hi-lo == 1 {
+		return tr.km[lo]
+	}
+	for c.j < hi && tr.kt[c.j] < t {
+		c.j++
+	}
+	j := c.j
+	switch {
+	case j <= lo:
+		j = lo + 1
+	case j >= hi:
+		j = hi - 1
+	}
+	f := (t - tr.kt[j-1]) / (tr.kt[j] - tr.kt[j-1])
+	return tr.km[j-1] + f*(tr.km[j]-tr.km[j-1])
+}
+
 // buildTrend makes knots from blocks of width w (h) over the kept points,
 // not crossing breaks. A knot sits at the block's mean time; its value is
 // the median of the block's masses carried to that time along the local
-// slope, so outliers bunched at one end of a block do not shift it.
+// slope, so outliers bunched at one end of a block do not shift it. The
+// times increase, so a block is a run of readings [lo, hi): nothing the
+// size of the run is copied.
 func buildTrend(t, m []float64, keep []bool, w float64, breaks []float64) *trend {
 	tr := &trend{breaks: breaks}
 	type block struct {
-		seg int
-		idx []int
+		seg, lo, hi, n int // segment; readings [lo, hi), n of them kept
 	}
 	var blocks []block
-	seg := 0
+	seg, s := 0, 0
 	start := math.NaN()
+	most := 0
 	for i := range t {
 		if !keep[i] {
 			continue
 		}
-		s := sort.SearchFloat64s(breaks, t[i])
-		if s < len(breaks) && breaks[s] == t[i] {
+		for s < len(breaks) && breaks[s] <= t[i] {
 			s++
 		}
 		if s != seg || math.IsNaN(start) || t[i]-start >= w {
-			blocks = append(blocks, block{seg: s})
+			if k := len(blocks); k > 0 {
+				most = max(most, blocks[k-1].n)
+			}
+			blocks = append(blocks, block{seg: s, lo: i})
 			seg, start = s, t[i]
 		}
-		blocks[len(blocks)-1].idx = append(blocks[len(blocks)-1].idx, i)
+		b := &blocks[len(blocks)-1]
+		b.hi = i + 1
+		b.n++
 	}
-	// First pass: plain medians, for the local slopes.
+	if k := len(blocks); k > 0 {
+		most = max(most, blocks[k-1].n)
+	}
+	buf := make([]float64, 0, most)
+	kept := func(b block, v []float64) []float64 {
+		buf = buf[:0]
+		for i := b.lo; i < b.hi; i++ {
+			if keep[i] {
+				buf = append(buf, v[i])
+			}
+		}
+		return buf
+	}
+	// Medians of at most medianSample evenly spaced readings of a block:
+	// a dense log's block holds thousands, and the knot moves by less than
+	// the balance's noise for it.
+	keptSample := func(b block, v []float64) []float64 {
+		return thin(kept(b, v), medianSample)
+	}
+	// First pass: plain medians, for the local slopes. The times of a
+	// block are in order: their median is the middle one (or two).
 	mt := make([]float64, len(blocks))
 	mv := make([]float64, len(blocks))
-	var bt, bm []float64
 	for b, bl := range blocks {
-		bt, bm = bt[:0], bm[:0]
-		for _, i := range bl.idx {
-			bt = append(bt, t[i])
-			bm = append(bm, m[i])
+		bt := kept(bl, t)
+		h := len(bt) / 2
+		if len(bt)%2 == 1 {
+			mt[b] = bt[h]
+		} else {
+			mt[b] = (bt[h-1] + bt[h]) / 2
 		}
-		mt[b], mv[b] = median(bt), median(bm)
+		mv[b] = medianInPlace(keptSample(bl, m))
 	}
+	tr.kt = make([]float64, 0, len(blocks))
+	tr.km = make([]float64, 0, len(blocks))
+	tr.seg = make([]int, 0, len(blocks))
 	for b, bl := range blocks {
 		slope := 0.0
 		lo, hi := b, b
@@ -161,16 +254,20 @@ func buildTrend(t, m []float64, keep []bool, w float64, breaks []float64) *trend
 			slope = (mv[hi] - mv[lo]) / (mt[hi] - mt[lo])
 		}
 		tc := 0.0
-		for _, i := range bl.idx {
-			tc += t[i]
+		for i := bl.lo; i < bl.hi; i++ {
+			if keep[i] {
+				tc += t[i]
+			}
 		}
-		tc /= float64(len(bl.idx))
-		bm = bm[:0]
-		for _, i := range bl.idx {
-			bm = append(bm, m[i]-slope*(t[i]-tc))
+		tc /= float64(bl.n)
+		buf = buf[:0]
+		for i := bl.lo; i < bl.hi; i++ {
+			if keep[i] {
+				buf = append(buf, m[i]-slope*(t[i]-tc))
+			}
 		}
 		tr.kt = append(tr.kt, tc)
-		tr.km = append(tr.km, median(bm))
+		tr.km = append(tr.km, medianInPlace(thin(buf, medianSample)))
 		tr.seg = append(tr.seg, bl.seg)
 	}
 	return tr
@@ -184,13 +281,24 @@ func buildTrend(t, m []float64, keep []bool, w float64, breaks []float64) *trend
 // scales), so a curve that bends hard early in a run is not mistaken for
 // spikes; never below floorG. passes is how many times the trend is
 // rebuilt without the spikes found. It returns the number rejected.
+// The times must increase.
 func RejectSpikes(t, m []float64, keep []bool, blockH float64, breaks []float64, floorG float64, passes int) int {
 	rejected := 0
+	var res, buf, own []float64
 	for pass := 0; pass < passes; pass++ {
 		tr := buildTrend(t, m, keep, blockH, breaks)
-		res := make([]float64, len(t))
-		var blocks [][]float64
+		if res == nil {
+			res = make([]float64, len(t))
+		}
+		// Residuals, and each block's median residual: the blocks follow
+		// one another in time, so one buffer holds the block in hand.
+		own = own[:0]
 		t0 := math.NaN()
+		cur := tr.cursor()
+		flush := func() {
+			own = append(own, medianInPlace(thin(buf, medianSample))) // NaN for an empty block
+			buf = buf[:0]
+		}
 		for i := range t {
 			if !keep[i] {
 				continue
@@ -198,36 +306,31 @@ func RejectSpikes(t, m []float64, keep []bool, blockH float64, breaks []float64,
 			if math.IsNaN(t0) {
 				t0 = t[i]
 			}
-			res[i] = math.Abs(m[i] - tr.at(t[i]))
+			res[i] = math.Abs(m[i] - cur.at(t[i]))
 			b := int((t[i] - t0) / blockH)
-			for len(blocks) <= b {
-				blocks = append(blocks, nil)
+			for len(own) < b {
+				flush()
 			}
-			blocks[b] = append(blocks[b], res[i])
+			buf = append(buf, res[i])
 		}
-		if len(blocks) == 0 {
+		if math.IsNaN(t0) {
 			return rejected
 		}
-		own := make([]float64, len(blocks))
-		for b, r := range blocks {
-			own[b] = math.NaN()
-			if len(r) > 0 {
-				own[b] = median(r)
-			}
-		}
-		scale := make([]float64, len(blocks))
+		flush()
+		scale := make([]float64, len(own))
 		var near []float64
-		for b := range blocks {
+		for b := range own {
 			near = near[:0]
 			for d := -1; d <= 1; d++ {
 				if k := b + d; k >= 0 && k < len(own) && !math.IsNaN(own[k]) {
 					near = append(near, own[k])
 				}
 			}
-			scale[b] = 1.4826 * median(near)
+			scale[b] = 1.4826 * medianInPlace(near)
 		}
 		found := 0
 		first := true
+		cur = tr.cursor()
 		for i := range t {
 			if !keep[i] {
 				continue
@@ -237,7 +340,7 @@ func RejectSpikes(t, m []float64, keep []bool, blockH float64, breaks []float64,
 			// and the initial mass is the one figure everything rests on.
 			if first {
 				first = false
-				if m[i] > tr.at(t[i]) {
+				if m[i] > cur.at(t[i]) {
 					continue
 				}
 			}
@@ -278,6 +381,23 @@ func FindSteps(t, m []float64, keep []bool, blockH, limit float64, known []float
 		return nil
 	}
 	var steps []Step
+	var scratch []float64
+	med := func(v []float64) float64 { // the median of v, v left as it is
+		scratch = append(scratch[:0], v...)
+		return medianInPlace(scratch)
+	}
+	// The Theil–Sen-like slope between the medians of the two halves.
+	slope := func(t, m []float64) float64 {
+		h := len(t) / 2
+		if h < 1 {
+			return 0
+		}
+		dt := med(t[len(t)-h:]) - med(t[:h])
+		if dt == 0 {
+			return 0
+		}
+		return (med(m[len(m)-h:]) - med(m[:h])) / dt
+	}
 	k := 0
 	for k < n && tt[k]-tt[0] < blockH {
 		k++
@@ -287,9 +407,8 @@ func FindSteps(t, m []float64, keep []bool, blockH, limit float64, known []float
 		// before: [i−k, i), after: [i, i+k)
 		bt, bm := tt[i-k:i], mm[i-k:i]
 		at, am := tt[i:i+k], mm[i:i+k]
-		slope := robustSlope(bt, bm)
-		pred := median(bm) + slope*(median(at)-median(bt))
-		drop := pred - median(am)
+		pred := med(bm) + slope(bt, bm)*(med(at)-med(bt))
+		drop := pred - med(am)
 		if drop <= limit {
 			continue
 		}
@@ -298,7 +417,7 @@ func FindSteps(t, m []float64, keep []bool, blockH, limit float64, known []float
 		for j := i + 1; j < min(i+k, n-k+1); j++ {
 			bt, bm := tt[j-k:j], mm[j-k:j]
 			at, am := tt[j:j+k], mm[j:j+k]
-			d := median(bm) + robustSlope(bt, bm)*(median(at)-median(bt)) - median(am)
+			d := med(bm) + slope(bt, bm)*(med(at)-med(bt)) - med(am)
 			if d > bestDrop {
 				best, bestDrop = j, d
 			}
@@ -324,40 +443,35 @@ func FindSteps(t, m []float64, keep []bool, blockH, limit float64, known []float
 	return steps
 }
 
-// robustSlope is the Theil–Sen-like slope between the medians of the two
-// halves of the points.
-func robustSlope(t, m []float64) float64 {
-	h := len(t) / 2
-	if h < 1 {
-		return 0
-	}
-	dt := median(t[len(t)-h:]) - median(t[:h])
-	if dt == 0 {
-		return 0
-	}
-	return (median(m[len(m)-h:]) - median(m[:h])) / dt
-}
-
 // decimateForSteps bins long series to medians so step finding stays fast.
 func decimateForSteps(t, m []float64, keep []bool, maxN int) ([]float64, []float64, []bool, float64) {
 	nk := countTrue(keep)
-	tt, mm := make([]float64, 0, nk), make([]float64, 0, nk) // sized once: no regrowing on long runs
+	per := max(1, (nk+maxN-1)/maxN)
+	tt, mm := make([]float64, 0, nk/per+1), make([]float64, 0, nk/per+1)
+	bt, bm := make([]float64, 0, per), make([]float64, 0, per)
+	flush := func() {
+		if len(bt) == 0 {
+			return
+		}
+		// Times in order: the middle one (or two) is their median.
+		h := len(bt) / 2
+		mt := bt[h]
+		if len(bt)%2 == 0 {
+			mt = (bt[h-1] + bt[h]) / 2
+		}
+		tt, mm = append(tt, mt), append(mm, medianInPlace(bm))
+		bt, bm = bt[:0], bm[:0]
+	}
 	for i := range t {
-		if keep[i] {
-			tt = append(tt, t[i])
-			mm = append(mm, m[i])
+		if !keep[i] {
+			continue
+		}
+		bt, bm = append(bt, t[i]), append(bm, m[i])
+		if len(bt) == per {
+			flush()
 		}
 	}
-	if len(tt) > maxN {
-		per := (len(tt) + maxN - 1) / maxN
-		bt, bm := make([]float64, 0, maxN+1), make([]float64, 0, maxN+1)
-		for i := 0; i < len(tt); i += per {
-			j := min(i+per, len(tt))
-			bt = append(bt, median(tt[i:j]))
-			bm = append(bm, median(mm[i:j]))
-		}
-		tt, mm = bt, bm
-	}
+	flush()
 	k := make([]bool, len(tt))
 	for i := range k {
 		k[i] = true
@@ -420,6 +534,41 @@ func filterSteps(steps []Step, limit float64, declared []float64, blockH float64
 	return out
 }
 
+// medianSample is the most values a block's median is taken over.
+const medianSample = 255
+
+// thin keeps at most n evenly spaced values of v, in v's own storage.
+func thin(v []float64, n int) []float64 {
+	if len(v) <= n {
+		return v
+	}
+	step := float64(len(v)) / float64(n)
+	for j := 0; j < n; j++ {
+		v[j] = v[int(float64(j)*step)]
+	}
+	return v[:n]
+}
+
+// medianInPlace is the median of v, reordering v (a buffer of the
+// caller's); NaN for none.
+func medianInPlace(v []float64) float64 {
+	n := len(v)
+	if n == 0 {
+		return math.NaN()
+	}
+	if n%2 == 1 {
+		return selectK(v, n/2)
+	}
+	hi := selectK(v, n/2)
+	lo := v[0]
+	for _, x := range v[:n/2] {
+		if x > lo {
+			lo = x
+		}
+	}
+	return (lo + hi) / 2
+}
+
 // median of v; v is not changed. Quickselect on a copy: linear time on
 // average, which matters for the long windows of dense logs.
 func median(v []float64) float64 {
@@ -429,16 +578,7 @@ func median(v []float64) float64 {
 	}
 	c := make([]float64, n)
 	copy(c, v)
-	if n%2 == 1 {
-		return selectK(c, n/2)
-	}
-	hi := selectK(c, n/2)
-	// the lower middle is the largest of the lower part
-	lo := c[0]
-	for _, x := range c[:n/2] {
-		lo = math.Max(lo, x)
-	}
-	return (lo + hi) / 2
+	return medianInPlace(c)
 }
 
 // selectK puts the k-th smallest of a at a[k], smaller ones before it, and

@@ -19,7 +19,7 @@ type Model struct {
 	Params []string // parameter names, in order
 	f      func(t float64, p []float64) float64
 	grad   func(t float64, p, g []float64) float64 // fills ∂f/∂p, returns f
-	start  func(t, mr []float64) [][]float64 // candidate starting values
+	start  func(t, mr []float64) [][]float64       // candidate starting values
 }
 
 // Eval returns MR at t for parameters p.

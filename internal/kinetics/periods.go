@@ -2,7 +2,6 @@ package kinetics
 
 import (
 	"math"
-	"sort"
 )
 
 // ConstantRate describes a constant-rate period found in the data.
@@ -29,26 +28,32 @@ const (
 // It returns nil when there is none: many fruits have none, and one is
 // never invented. rateSD is the typical noise of the smoothed rate (g/h).
 func FindConstantRate(t, smooth, rate []float64, rateSD, windowH float64) *ConstantRate {
-	var idx []int
+	known := 0
 	for i := range t {
 		if !math.IsNaN(rate[i]) {
-			idx = append(idx, i)
+			known++
 		}
 	}
-	if len(idx) < 10 {
+	if known < 10 {
 		return nil
 	}
 	// Dense logs: every step-th reading is plenty for a rate that is
 	// already smoothed over many readings.
-	if step := len(idx) / 4000; step > 1 {
-		thin := idx[:0:0]
-		for k := 0; k < len(idx); k += step {
-			thin = append(thin, idx[k])
+	step := max(1, known/4000)
+	idx := make([]int, 0, known/step+2)
+	c, lastKnown := 0, -1
+	for i := range t {
+		if math.IsNaN(rate[i]) {
+			continue
 		}
-		if thin[len(thin)-1] != idx[len(idx)-1] {
-			thin = append(thin, idx[len(idx)-1])
+		if c%step == 0 {
+			idx = append(idx, i)
 		}
-		idx = thin
+		c++
+		lastKnown = i
+	}
+	if idx[len(idx)-1] != lastKnown {
+		idx = append(idx, lastKnown)
 	}
 	first, last := idx[0], idx[len(idx)-1]
 	lost := smooth[first] - smooth[last]
@@ -57,9 +62,8 @@ func FindConstantRate(t, smooth, rate []float64, rateSD, windowH float64) *Const
 	}
 	// A running median over two smoothing windows each side: the rate at
 	// the ends comes from one-sided fits, noisier than inside, and one noisy
-	// value must not set the peak.
-	med := make([]float64, len(rate))
-	copy(med, rate)
+	// value must not set the peak. med[k] is at reading idx[k].
+	med := make([]float64, len(idx))
 	buf := make([]float64, 0, 64)
 	for k, i := range idx {
 		buf = buf[:0]
@@ -69,48 +73,39 @@ func FindConstantRate(t, smooth, rate []float64, rateSD, windowH float64) *Const
 		for q := k + 1; q < len(idx) && t[idx[q]]-t[i] <= 2*windowH; q++ {
 			buf = append(buf, rate[idx[q]])
 		}
-		med[i] = median(buf)
+		med[k] = medianInPlace(buf)
 	}
-	rate = med
-	// The peak, in the first half of the run (after the warm-up).
-	peak := -1
-	for _, i := range idx {
+	// The peak, in the first half of the run (after the warm-up); from here
+	// on the rate is the running median, by position in idx.
+	pos := -1
+	for k, i := range idx {
 		if t[i]-t[first] > (t[last]-t[first])/2 {
 			break
 		}
-		if peak < 0 || rate[i] > rate[peak] {
-			peak = i
-		}
-	}
-	if peak < 0 || !(rate[peak] > 0) {
-		return nil
-	}
-	// Level: the median rate near the peak, so one noisy maximum does not
-	// set it.
-	tol := plateauTol + 3*rateSD/rate[peak]
-	pos := 0
-	for k, i := range idx {
-		if i == peak {
+		if pos < 0 || med[k] > med[pos] {
 			pos = k
 		}
 	}
+	if pos < 0 || !(med[pos] > 0) {
+		return nil
+	}
+	peak := med[pos]
+	// Level: the median rate near the peak, so one noisy maximum does not
+	// set it.
+	tol := plateauTol + 3*rateSD/peak
 	lo, hi := pos, pos
-	for lo > 0 && rate[idx[lo-1]] >= (1-tol)*rate[peak] {
+	for lo > 0 && med[lo-1] >= (1-tol)*peak {
 		lo--
 	}
-	for hi+1 < len(idx) && rate[idx[hi+1]] >= (1-tol)*rate[peak] {
+	for hi+1 < len(idx) && med[hi+1] >= (1-tol)*peak {
 		hi++
 	}
 	// Where the rate starts to fall: the first point past the middle of the
 	// plateau that drops below its level by more than the rate's noise.
-	var lv []float64
-	for q := lo; q <= hi; q++ {
-		lv = append(lv, rate[idx[q]])
-	}
-	level := median(lv)
+	level := median(med[lo : hi+1])
 	delta := 0.01 + 3*rateSD/level
 	for q := (lo + hi) / 2; q <= hi; q++ {
-		if rate[idx[q]] < level*(1-delta) {
+		if med[q] < level*(1-delta) {
 			hi = max(q-1, lo)
 			break
 		}
@@ -130,49 +125,65 @@ func FindConstantRate(t, smooth, rate []float64, rateSD, windowH float64) *Const
 // steadyAt is the first time the weight has been steady: the linear change
 // over the trailing window is within pct % of the mass. NaN if never.
 func steadyAt(t, m []float64, keep []bool, breaks []float64, windowH, pct float64) float64 {
-	nk := countTrue(keep)
-	tt, mm := make([]float64, 0, nk), make([]float64, 0, nk)
+	nk, first, last := 0, -1, -1
 	for i := range t {
 		if keep[i] {
-			tt = append(tt, t[i])
-			mm = append(mm, m[i])
+			nk++
+			if first < 0 {
+				first = i
+			}
+			last = i
 		}
 	}
-	if len(tt) < 10 || tt[len(tt)-1]-tt[0] < windowH {
+	if nk < 10 || t[last]-t[first] < windowH {
 		return math.NaN()
 	}
-	// Prefix sums: the straight-line slope and the mean level of any window
-	// in constant time (the window is a straight-line fit, as LocalPoly of
-	// degree 1 gives, and the mean stands for the level: the test is a
-	// relative tolerance).
-	st, sm, stt, stm := prefix(tt, mm)
-	window := func(lo, hi int) (slope, level float64, ok bool) {
-		n := float64(hi - lo)
-		a, b := st[hi]-st[lo], sm[hi]-sm[lo]
-		den := n*(stt[hi]-stt[lo]) - a*a
-		if !(den > 0) {
-			return 0, 0, false
-		}
-		return (n*(stm[hi]-stm[lo]) - a*b) / den, b / n, true
+	// Running sums over the window as it slides forward: the straight-line
+	// slope and the mean level of any window in constant time, with nothing
+	// the size of the run kept (the window is a straight-line fit, as
+	// LocalPoly of degree 1 gives, and the mean stands for the level: the
+	// test is a relative tolerance). Times are taken from the first kept
+	// one so the sums stay well scaled.
+	t0 := t[first]
+	var n, st, sm, stt, stm float64
+	add := func(i int, sign float64) {
+		d := t[i] - t0
+		n += sign
+		st += sign * d
+		sm += sign * m[i]
+		stt += sign * d * d
+		stm += sign * d * m[i]
 	}
+	lo, hi := first, first // kept readings in [lo, hi) are summed
 	// Counted steps, at most 100 000 over the run: a step too small to move
 	// the end (a window of 1e-300 h) cannot make this loop for ever.
-	span := tt[len(tt)-1] - tt[0]
+	span := t[last] - t[first]
 	step := math.Max(windowH/10, span/1e5)
 	for k := 0; ; k++ {
-		end := tt[0] + windowH + float64(k)*step
-		if end > tt[len(tt)-1]+1e-9 {
+		end := t[first] + windowH + float64(k)*step
+		if end > t[last]+1e-9 {
 			break
 		}
-		lo := sort.SearchFloat64s(tt, end-windowH)
-		hi := sort.SearchFloat64s(tt, end+1e-12)
-		if hi-lo < 5 || crosses(breaks, end-windowH, end) {
+		for hi <= last && t[hi] <= end+1e-12 {
+			if keep[hi] {
+				add(hi, 1)
+			}
+			hi++
+		}
+		for lo < hi && t[lo] < end-windowH {
+			if keep[lo] {
+				add(lo, -1)
+			}
+			lo++
+		}
+		if n < 5 || crosses(breaks, end-windowH, end) {
 			continue
 		}
-		slope, level, ok := window(lo, hi)
-		if !ok {
+		den := n*stt - st*st
+		if !(den > 0) {
 			continue
 		}
+		slope, level := (n*stm-st*sm)/den, sm/n
 		if math.Abs(slope)*windowH <= pct/100*level {
 			return end
 		}
@@ -187,20 +198,4 @@ func crosses(breaks []float64, from, to float64) bool {
 		}
 	}
 	return false
-}
-
-// prefix returns running sums of t, m, t² and t·m (index i: the first i
-// values), with t taken from its first value so the sums stay well scaled.
-func prefix(t, m []float64) (st, sm, stt, stm []float64) {
-	n := len(t)
-	st, sm, stt, stm = make([]float64, n+1), make([]float64, n+1), make([]float64, n+1), make([]float64, n+1)
-	t0 := t[0]
-	for i := range t {
-		d := t[i] - t0
-		st[i+1] = st[i] + d
-		sm[i+1] = sm[i] + m[i]
-		stt[i+1] = stt[i] + d*d
-		stm[i+1] = stm[i] + d*m[i]
-	}
-	return
 }

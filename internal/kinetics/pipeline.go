@@ -163,17 +163,24 @@ func clean(s Series, setup Setup) cleaned {
 
 	// Balance noise and resolution from the kept readings.
 	km := make([]float64, 0, c.kept)
-	kt := make([]float64, 0, c.kept)
+	firstT, lastT := math.NaN(), math.NaN()
 	for i := range c.keep {
 		if c.keep[i] {
 			km = append(km, c.net[i])
-			kt = append(kt, t[i])
+			if math.IsNaN(firstT) {
+				firstT = t[i]
+			}
+			lastT = t[i]
 		}
 	}
+	nk := len(km)
 	c.noiseSD = NoiseSD(km)
 	res := Resolution(km)
-	c.span = kt[len(kt)-1] - kt[0]
-	c.dt = c.span / math.Max(float64(len(kt)-1), 1)
+	// The typical mass sets how large a drop counts as a step: the median
+	// of 10^5 evenly spaced readings is plenty for that.
+	medMass := medianInPlace(thin(km, noiseSample)) // km is reordered
+	c.span = lastT - firstT
+	c.dt = c.span / math.Max(float64(nk-1), 1)
 	c.blockH = math.Max(5.0/60, 7*c.dt)
 	if c.span > 0 {
 		c.blockH = math.Min(c.blockH, math.Max(c.span/4, c.dt))
@@ -188,9 +195,8 @@ func clean(s Series, setup Setup) cleaned {
 			c.removed = append(c.removed, rm)
 		}
 	}
-	medMass := median(km)
 	floor := math.Max(3*res, 3*c.noiseSD)
-	if s.Kind == SeriesMass && len(km) >= 20 {
+	if s.Kind == SeriesMass && nk >= 20 {
 		// Transient spikes first, so they are not taken for steps; the
 		// readings they cost near a real step come back below.
 		noSpikes := append([]bool(nil), c.keep...)
@@ -207,7 +213,7 @@ func clean(s Series, setup Setup) cleaned {
 	sort.Float64s(c.breaks)
 	// With fewer than 20 readings a spike cannot be told from the curve:
 	// keep them all.
-	if len(km) >= 20 && RejectSpikes(t, c.net, c.keep, c.blockH, c.breaks, floor, 2) > 0 {
+	if nk >= 20 && RejectSpikes(t, c.net, c.keep, c.blockH, c.breaks, floor, 2) > 0 {
 		for i := range c.keep {
 			if !c.keep[i] && c.reject[i] == KeepOK {
 				c.reject[i] = RejSpike
@@ -371,7 +377,7 @@ func constantRate(t []float64, c cleaned, sm smoothed, sp *solids) *ConstantRate
 	}
 	hPeak := RateWindow(peakRate, c.noiseSD, c.dt, 3*c.dt, math.Max(math.Min(c.span/6, 2), 3*c.dt))
 	rateSD := math.Sqrt(1.5 * c.noiseSD * c.noiseSD * c.dt / math.Pow(hPeak, 3))
-	cr := FindConstantRate(t, sm.smooth, maskNaN(sm.rate, c.keep), rateSD, hPeak)
+	cr := FindConstantRate(t, sm.smooth, sm.rate, rateSD, hPeak) // NaN where not kept
 	if cr != nil && sp != nil && !cr.Ongoing {
 		cr.CriticalDB = sm.smooth[indexAt(t, c.keep, cr.EndH)]/sp.at(cr.EndH) - 1
 	}

@@ -114,16 +114,24 @@ func RateWindow(rate, sd, dt, minH, maxH float64) float64 {
 // the windows then hold tens of bins, not thousands of readings.
 func SmoothRate(t, m []float64, keep []bool, sd float64) (smooth, rate []float64) {
 	n := len(t)
-	smooth = make([]float64, n)
-	rate = make([]float64, n)
-	var idx []int
-	for i := range t {
-		smooth[i], rate[i] = math.NaN(), math.NaN()
+	smooth, rate = nanSlice(n), nanSlice(n)
+	smoothInto(t, m, keep, 0, n, sd, smooth, rate)
+	return
+}
+
+// smoothInto is SmoothRate on the readings [lo, hi), in time order,
+// written into smooth and rate (left as they are where not kept).
+func smoothInto(t, m []float64, keep []bool, lo, hi int, sd float64, smooth, rate []float64) {
+	k, first, last := 0, -1, -1
+	for i := lo; i < hi; i++ {
 		if keep[i] {
-			idx = append(idx, i)
+			k++
+			if first < 0 {
+				first = i
+			}
+			last = i
 		}
 	}
-	k := len(idx)
 	if k < 3 {
 		return
 	}
@@ -131,17 +139,22 @@ func SmoothRate(t, m []float64, keep []bool, sd float64) (smooth, rate []float64
 		sd = 1e-3
 	}
 	bt, bm, bw := make([]float64, 0, min(k, maxFitBins)), make([]float64, 0, min(k, maxFitBins)), []float64(nil)
-	span := t[idx[k-1]] - t[idx[0]]
+	span := t[last] - t[first]
 	if k <= maxFitBins || span <= 0 {
-		for _, i := range idx {
-			bt = append(bt, t[i])
-			bm = append(bm, m[i])
+		for i := first; i <= last; i++ {
+			if keep[i] {
+				bt = append(bt, t[i])
+				bm = append(bm, m[i])
+			}
 		}
 	} else {
 		width := span / maxFitBins
-		t0 := t[idx[0]]
+		t0 := t[first]
 		sumT, sumM, c, bin := 0.0, 0.0, 0, 0
-		for _, i := range idx {
+		for i := first; i <= last; i++ {
+			if !keep[i] {
+				continue
+			}
 			b := min(int((t[i]-t0)/width), maxFitBins-1)
 			if b != bin && c > 0 {
 				bt, bm, bw = append(bt, sumT/float64(c)), append(bm, sumM/float64(c)), append(bw, float64(c))
@@ -157,14 +170,21 @@ func SmoothRate(t, m []float64, keep []bool, sd float64) (smooth, rate []float64
 	}
 	bs, br := smoothPoints(bt, bm, bw, sd)
 	if bw == nil {
-		for j, i := range idx {
-			smooth[i], rate[i] = bs[j], br[j]
+		j := 0
+		for i := first; i <= last; i++ {
+			if keep[i] {
+				smooth[i], rate[i] = bs[j], br[j]
+				j++
+			}
 		}
 		return
 	}
 	// Carry the bin fits to the readings: linear between bin centres.
 	j := 0
-	for _, i := range idx {
+	for i := first; i <= last; i++ {
+		if !keep[i] {
+			continue
+		}
 		for j+1 < len(bt) && bt[j+1] < t[i] {
 			j++
 		}
@@ -177,7 +197,6 @@ func SmoothRate(t, m []float64, keep []bool, sd float64) (smooth, rate []float64
 		smooth[i] = bs[j] + f*(bs[j+1]-bs[j])
 		rate[i] = br[j] + f*(br[j+1]-br[j])
 	}
-	return
 }
 
 // maxFitBins bounds the points the smoothing fits work on.
