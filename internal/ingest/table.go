@@ -532,13 +532,23 @@ func parseDateAndTime(date, clock string) (time.Time, bool) {
 
 // parseHMS accepts elapsed time as h:mm:ss or h:mm:ss.s.
 func parseHMS(s string) (time.Duration, bool) {
-	parts := strings.Split(s, ":")
-	if len(parts) != 3 {
+	// Cut at the two colons without a slice per row: a plain number (the
+	// usual elapsed column) has none and is turned away at once.
+	c1 := strings.IndexByte(s, ':')
+	if c1 < 0 {
 		return 0, false
 	}
-	h, e1 := strconv.Atoi(parts[0])
-	m, e2 := strconv.Atoi(parts[1])
-	sec, e3 := strconv.ParseFloat(parts[2], 64)
+	c2 := strings.IndexByte(s[c1+1:], ':')
+	if c2 < 0 {
+		return 0, false
+	}
+	c2 += c1 + 1
+	if strings.IndexByte(s[c2+1:], ':') >= 0 {
+		return 0, false
+	}
+	h, e1 := strconv.Atoi(s[:c1])
+	m, e2 := strconv.Atoi(s[c1+1 : c2])
+	sec, e3 := strconv.ParseFloat(s[c2+1:], 64)
 	if e1 != nil || e2 != nil || e3 != nil || h < 0 || h > 1_000_000 || m < 0 || m > 59 || sec < 0 || sec >= 60 {
 		return 0, false
 	}

@@ -5,7 +5,6 @@ import (
 	"math"
 	"sort"
 	"strings"
-	"sync"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -397,15 +396,11 @@ func FitAll(t, mr []float64) ([]*Fit, map[string]string) {
 	// The models are independent: fitted side by side, kept in their order.
 	res := make([]*Fit, len(Models))
 	errs := make([]error, len(Models))
-	var wg sync.WaitGroup
+	fns := make([]func(), len(Models))
 	for i, m := range Models {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			res[i], errs[i] = FitModel(m, t, mr)
-		}()
+		fns[i] = func() { res[i], errs[i] = FitModel(m, t, mr) }
 	}
-	wg.Wait()
+	parallel(fns...)
 	var fits []*Fit
 	failed := map[string]string{}
 	for i, m := range Models {

@@ -1,8 +1,10 @@
 package kinetics
 
 import (
+	"fmt"
 	"math"
 	"sort"
+	"sync"
 )
 
 // analyzeInOrder is Analyze on readings whose times increase. It is a
@@ -44,48 +46,90 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 	mo := moisture(s, setup, c, sm, r.warn)
 	r.setMoisture(mo)
 
-	r.ConstantRate, r.EndOfRunH = periods(t, c, sm, mo.solids, setup)
-	if r.ConstantRate != nil && r.ConstantRate.Ongoing {
-		r.warn("still in the constant-rate period: its end and the critical moisture are not known yet")
-	}
-
+	// The fits, the periods with the diffusivity (which starts where the
+	// constant-rate period ends) and the projection need only what the
+	// stages above found: they run side by side, each with its own
+	// warnings, put in the result in this order.
+	var wPeriods, wFits, wDiff, wProj warnings
 	fitT, fitMR := binned(t, r.Points.MR, c.keep, opt.MaxFitPoints)
 	r.FitPoints = len(fitT)
 	fittable := mo.solids != nil && len(fitT) >= 5 && minOf(fitMR) <= 0.95
-	switch {
-	case mo.solids == nil:
-		r.warn("model fits, diffusivity and projection need the dry solids: give --initial-moisture or --dry-mass")
-	case len(fitT) < 5:
-		r.warn("model fits need at least 5 usable moisture ratios, have %d", len(fitT))
-	case !fittable:
-		r.warn("the moisture ratio has fallen only to %.3f: too early for model fits", minOf(fitMR))
-	default:
-		r.Fits, r.FitFailures, r.Best = fits(fitT, fitMR, r.warn)
+	project := mo.solids != nil && !math.IsNaN(setup.TargetX()) && !mo.ratioOnly
+	parallel(
+		func() {
+			r.ConstantRate, r.EndOfRunH = periods(t, c, sm, mo.solids, setup)
+			if r.ConstantRate != nil && r.ConstantRate.Ongoing {
+				wPeriods.add("still in the constant-rate period: its end and the critical moisture are not known yet")
+			}
+			if fittable {
+				r.Diffusivity = diffusivity(fitT, fitMR, t[sm.first], r.ConstantRate, setup, wDiff.add)
+			}
+		},
+		func() {
+			switch {
+			case mo.solids == nil:
+				wFits.add("model fits, diffusivity and projection need the dry solids: give --initial-moisture or --dry-mass")
+			case len(fitT) < 5:
+				wFits.add("model fits need at least 5 usable moisture ratios, have %d", len(fitT))
+			case !fittable:
+				wFits.add("the moisture ratio has fallen only to %.3f: too early for model fits", minOf(fitMR))
+			default:
+				r.Fits, r.FitFailures, r.Best = fits(fitT, fitMR, wFits.add)
+			}
+		},
+		func() {
+			if !project {
+				return
+			}
+			r.track = projection(t, r.Points.X, c.keep, mo.xe, r.InitialMoistureDB, setup.TargetX(), opt, wProj.add)
+			if math.IsNaN(r.TargetReachedH) {
+				r.Projection = backtestProjection(r.track)
+				if r.Projection.Why != "" {
+					wProj.add("projection: %s", r.Projection.Why)
+				}
+			}
+		},
+	)
+	for _, w := range [][]string{wPeriods, wFits, wDiff, wProj} {
+		r.Warnings = append(r.Warnings, w...)
 	}
-
-	if fittable {
-		r.Diffusivity = diffusivity(fitT, fitMR, t[sm.first], r.ConstantRate, setup, r.warn)
-	}
-
-	if mo.solids != nil && !math.IsNaN(setup.TargetX()) && !mo.ratioOnly {
-		r.track = projection(t, r.Points.X, c.keep, mo.xe, r.InitialMoistureDB, setup.TargetX(), opt, r.warn)
-	}
-	switch {
-	case !math.IsNaN(r.TargetReachedH):
-		tr := r.TargetReachedH
+	if tr := r.TargetReachedH; !math.IsNaN(tr) {
 		r.Projection = NoProjection("")
 		r.Projection.TargetH, r.Projection.LowH, r.Projection.HighH, r.Projection.Method = tr, tr, tr, ProjReached
-	case r.track != nil:
-		r.Projection = backtestProjection(r.track)
-		if r.Projection.Why != "" {
-			r.warn("projection: %s", r.Projection.Why)
-		}
 	}
 
 	if !r.MassKnown {
 		r.forgetMasses(s.Kind, mo.ratioOnly)
 	}
 	return r, nil
+}
+
+// warnings gathers the warnings of one stage.
+type warnings []string
+
+func (w *warnings) add(format string, a ...any) { *w = append(*w, fmt.Sprintf(format, a...)) }
+
+// parallel runs the functions side by side and returns when all are done.
+// A panic in one is raised again here, in the caller's goroutine, where the
+// dashboard recovers from it (a panic in a goroutine of its own would end
+// the program, recording and all).
+func parallel(fns ...func()) {
+	var wg sync.WaitGroup
+	panics := make([]any, len(fns))
+	for i, fn := range fns {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			defer func() { panics[i] = recover() }()
+			fn()
+		}()
+	}
+	wg.Wait()
+	for _, p := range panics {
+		if p != nil {
+			panic(p)
+		}
+	}
 }
 
 // newResult is a Result with every figure not known yet.

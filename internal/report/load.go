@@ -15,6 +15,7 @@ import (
 	"sort"
 	"strings"
 	"time"
+	"unsafe"
 
 	"parch/internal/ingest"
 	"parch/internal/kinetics"
@@ -99,11 +100,28 @@ func Load(path string, table ingest.TableOptions) (*Run, error) {
 		return loadSession(path, lr)
 	}
 	table.AllowMoisture = true
-	var size int64
-	if st, err := f.Stat(); err == nil {
-		size = st.Size()
+	return loadTable(path, lr, table, countLines(f))
+}
+
+// countLines counts the lines of a regular file without moving its read
+// position (0 for anything else), so that a long table's columns are
+// allocated once at their size: growing them copied each several times
+// over and held the old copies until the next collection.
+func countLines(f *os.File) int64 {
+	st, err := f.Stat()
+	if err != nil || !st.Mode().IsRegular() {
+		return 0
 	}
-	return loadTable(path, lr, table, size)
+	buf := make([]byte, 1<<20)
+	var n, off int64
+	for {
+		k, err := f.ReadAt(buf, off)
+		n += int64(bytes.Count(buf[:k], []byte{'\n'}))
+		off += int64(k)
+		if err != nil || k == 0 {
+			return n + 1 // a last line without its newline
+		}
+	}
 }
 
 // MaxLineBytes bounds a line of a file read for a report; longer lines are
@@ -152,10 +170,10 @@ func loadSession(path string, lr *textline.Reader) (*Run, error) {
 	return run, nil
 }
 
-func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions, sizeHint int64) (*Run, error) {
+func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions, lines int64) (*Run, error) {
 	run := &Run{Path: path, Format: "csv", Params: map[string]float64{}, Channels: map[string][]float32{}}
 	var tb *ingest.Table
-	var dupChan []bool
+	var chans [][]float32 // by channel; nil for the second of two columns of one name
 	lineNo := 0
 	var t0 time.Time
 	var e0 time.Duration
@@ -187,35 +205,34 @@ func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions, sizeHi
 			}
 			continue
 		}
+		raw = bytes.TrimRight(raw, "\r\n")
 		if len(raw) > 0 {
-			line := strings.TrimRight(string(raw), "\r\n")
 			if tb == nil {
-				if tb, err = ingest.NewTable(line, opt); err != nil {
+				if tb, err = ingest.NewTable(string(raw), opt); err != nil {
 					return nil, fmt.Errorf("%s: %w", path, err)
 				}
 				tb.ChannelValues = make([]float64, len(tb.Channels))
+				n := int(min(max(lines-1, 0), 1<<28)) // the rows, as counted
+				run.Series.TimeH = make([]float64, 0, n)
+				run.Series.Value = make([]float64, 0, n)
+				run.Series.Stable = make([]int8, 0, n)
 				seen := map[string]bool{}
-				dupChan = make([]bool, len(tb.Channels)) // two columns of one name: the first is kept
+				chans = make([][]float32, len(tb.Channels))
 				for j, c := range tb.Channels {
-					dupChan[j], seen[c.Name] = seen[c.Name], true
-				}
-				// Sized from the file: rows are about as long as this one.
-				if rows := sizeHint / int64(max(len(raw), 16)); rows > 0 && rows < 1<<28 {
-					n := int(rows)
-					run.Series.TimeH = make([]float64, 0, n)
-					run.Series.Value = make([]float64, 0, n)
-					run.Series.Stable = make([]int8, 0, n)
-					run.TimesMs = make([]int64, 0, n)
-					for _, c := range tb.Channels {
-						run.Channels[c.Name] = make([]float32, 0, n)
+					if !seen[c.Name] { // two columns of one name: the first is kept
+						chans[j] = make([]float32, 0, n)
 					}
+					seen[c.Name] = true
 				}
 				continue
 			}
-			if strings.TrimSpace(line) == "" {
+			if len(bytes.TrimSpace(raw)) == 0 {
 				continue
 			}
-			row, derr := tb.Decode(line)
+			// The line is read in place: Decode keeps nothing of it once it
+			// returns (its errors are formatted copies), and the reader's
+			// buffer is not touched until the next line.
+			row, derr := tb.Decode(unsafe.String(&raw[0], len(raw)))
 			if derr != nil {
 				skipped++
 				if skipped <= 10 {
@@ -231,21 +248,27 @@ func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions, sizeHi
 				}
 			}
 			var h float64
-			var ms int64
 			if !row.Time.IsZero() {
 				h = row.Time.Sub(t0).Hours()
-				ms = row.Time.UnixMilli()
+				if run.TimesMs == nil { // clock times: kept for the record
+					run.TimesMs = make([]int64, len(run.Series.TimeH), cap(run.Series.TimeH))
+				}
 			} else {
 				h = (row.Elapsed - e0).Hours()
 			}
-			st := row.Stable.Int8()
+			if run.TimesMs != nil {
+				var ms int64
+				if !row.Time.IsZero() {
+					ms = row.Time.UnixMilli()
+				}
+				run.TimesMs = append(run.TimesMs, ms)
+			}
 			run.Series.TimeH = append(run.Series.TimeH, h)
 			run.Series.Value = append(run.Series.Value, row.MassG)
-			run.Series.Stable = append(run.Series.Stable, st)
-			run.TimesMs = append(run.TimesMs, ms)
-			for j, c := range tb.Channels {
-				if !dupChan[j] {
-					run.Channels[c.Name] = append(run.Channels[c.Name], float32(tb.ChannelValues[j]))
+			run.Series.Stable = append(run.Series.Stable, row.Stable.Int8())
+			for j, col := range chans {
+				if col != nil {
+					chans[j] = append(col, float32(tb.ChannelValues[j]))
 				}
 			}
 		}
@@ -254,6 +277,13 @@ func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions, sizeHi
 				break
 			}
 			return nil, fmt.Errorf("read %s: %w", path, err)
+		}
+	}
+	if tb != nil {
+		for j, c := range tb.Channels {
+			if chans[j] != nil {
+				run.Channels[c.Name] = chans[j]
+			}
 		}
 	}
 	if tb == nil {
