@@ -34,8 +34,8 @@ func (m *Model) solidsAt(i int) float64 {
 	if m.res == nil || math.IsNaN(m.res.DryMassG) {
 		return math.NaN()
 	}
-	if i < m.resN && !math.IsNaN(m.res.Points.X[i]) && m.res.Points.NetG[i] > 0 {
-		return m.res.Points.NetG[i] / (1 + m.res.Points.X[i])
+	if i < m.resN && !math.IsNaN(m.res.Points.X(i)) && m.res.Points.NetG[i] > 0 {
+		return m.res.Points.NetG[i] / (1 + m.res.Points.X(i))
 	}
 	return m.res.DryMassG
 }
@@ -419,14 +419,14 @@ func (m *Model) rateChart(w, h int) []string {
 	}
 	xlo, xhi := math.Inf(1), math.Inf(-1)
 	for i := 0; i < n; i++ {
-		if m.kept(i) && !math.IsNaN(pts.X[i]) {
-			xlo, xhi = math.Min(xlo, pts.X[i]), math.Max(xhi, pts.X[i])
+		if m.kept(i) && !math.IsNaN(pts.X(i)) {
+			xlo, xhi = math.Min(xlo, pts.X(i)), math.Max(xhi, pts.X(i))
 		}
 	}
 	if !(xhi > xlo) {
 		return lines
 	}
-	data := columns(cols, xlo, xhi, n, func(i int) (float64, float64, bool) { return pts.X[i], pts.RateG[i], m.kept(i) })
+	data := columns(cols, xlo, xhi, n, func(i int) (float64, float64, bool) { return pts.X(i), pts.RateG[i], m.kept(i) })
 	lo, hi := seriesRange([][]float64{data})
 	yfmt, lw := yFormat(lo, hi)
 	lines = append(lines, plot([][]float64{data}, w, rows, nil, nil, yfmt)...)

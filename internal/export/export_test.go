@@ -176,8 +176,8 @@ func TestReadingsAgree(t *testing.T) {
 	dry := float64(b.Summary.DryMassG)
 	for i, row := range rows[1:] {
 		x, _ := strconv.ParseFloat(row[col["moisture_db"]], 64)
-		if math.Abs(x-b.Res.Points.X[i]) > 1e-6 {
-			t.Fatalf("row %d: moisture_db %v, kinetics %v", i, x, b.Res.Points.X[i])
+		if math.Abs(x-b.Res.Points.X(i)) > 1e-6 {
+			t.Fatalf("row %d: moisture_db %v, kinetics %v", i, x, b.Res.Points.X(i))
 		}
 		m, _ := strconv.ParseFloat(row[col["mass_g"]], 64)
 		if math.Abs(m/(1+x)-dry) > 1e-3 {

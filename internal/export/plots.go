@@ -145,7 +145,7 @@ func moisturePlot(b *Bundle) (*plot.Plot, error) {
 		data = series(b, func(i int) float64 { return t[i] }, func(i int) float64 { return r.Points.NetG[i] })
 	} else {
 		p = newPlot("Moisture against time", "elapsed time (h)", "moisture (dry basis)")
-		data = series(b, func(i int) float64 { return t[i] }, func(i int) float64 { return r.Points.X[i] })
+		data = series(b, func(i int) float64 { return t[i] }, func(i int) float64 { return r.Points.X(i) })
 	}
 	if len(data) < 2 {
 		return nil, nil
@@ -217,7 +217,7 @@ func ratePlot(b *Bundle) (*plot.Plot, error) {
 	if !r.MassKnown {
 		return nil, nil
 	}
-	data := series(b, func(i int) float64 { return r.Points.X[i] }, func(i int) float64 { return r.Points.RateG[i] })
+	data := series(b, func(i int) float64 { return r.Points.X(i) }, func(i int) float64 { return r.Points.RateG[i] })
 	if len(data) < 2 {
 		return nil, nil
 	}
@@ -242,7 +242,7 @@ func lnMRPlot(b *Bundle) (*plot.Plot, error) {
 	r := b.Res
 	t := b.Run.Series.TimeH
 	data := series(b, func(i int) float64 { return t[i] }, func(i int) float64 {
-		if mr := r.Points.MR[i]; mr > 0 {
+		if mr := r.Points.MR(i); mr > 0 {
 			return math.Log(mr)
 		}
 		return math.NaN()
@@ -279,7 +279,7 @@ func modelPlot(dir string, b *Bundle) error {
 		return nil
 	}
 	t := b.Run.Series.TimeH
-	data := series(b, func(i int) float64 { return t[i] }, func(i int) float64 { return r.Points.MR[i] })
+	data := series(b, func(i int) float64 { return t[i] }, func(i int) float64 { return r.Points.MR(i) })
 	if len(data) < 2 {
 		return nil
 	}

@@ -101,9 +101,9 @@ func studyCurves(runs []study.Run, rate bool) (*plot.Plot, error) {
 			if pts.Reject[j] != 0 || j >= len(r.TimeH) {
 				continue
 			}
-			x, y := r.TimeH[j], pts.MR[j]
+			x, y := r.TimeH[j], pts.MR(j)
 			if rate {
-				x, y = pts.X[j], pts.RateDB[j]
+				x, y = pts.X(j), pts.RateDB(j)
 			}
 			if !math.IsNaN(x) && !math.IsNaN(y) && !math.IsInf(x, 0) && !math.IsInf(y, 0) {
 				xy = append(xy, plotter.XY{X: x, Y: y})

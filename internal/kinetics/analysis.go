@@ -34,17 +34,72 @@ type Options struct {
 	MoreReferences []*Reference
 }
 
-// Points are the derived values at every reading (NaN where not known).
+// Points are the figures at every reading (NaN where not known). The
+// moisture figures are worked out when asked for, from the net mass, the
+// time and the dry solids: stored, they were five more columns the size of
+// the run (40 MB at a million readings).
 type Points struct {
 	Reject  []uint8   // 0 kept, else a RejectReason code
 	NetG    []float64 // value after tare
 	SmoothG []float64 // smoothed mass
 	RateG   []float64 // drying rate −dm/dt, g/h
-	RateDB  []float64 // −dX/dt, 1/h (dry basis)
-	Flux    []float64 // kg/(m²·h), with the tray area
-	X       []float64 // dry-basis moisture
-	WBPct   []float64 // wet-basis moisture, %
-	MR      []float64 // moisture ratio
+	conv    *moistureOf
+}
+
+// Len is the number of readings.
+func (p *Points) Len() int { return len(p.NetG) }
+
+// X is the dry-basis moisture at reading i.
+func (p *Points) X(i int) float64 { return p.conv.x(i) }
+
+// WBPct is the wet-basis moisture at reading i, %.
+func (p *Points) WBPct(i int) float64 { return 100 * DryToWet(p.conv.x(i)) }
+
+// MR is the moisture ratio at reading i.
+func (p *Points) MR(i int) float64 { return p.conv.mr(i) }
+
+// RateDB is the drying rate −dX/dt at reading i, 1/h (dry basis).
+func (p *Points) RateDB(i int) float64 { return p.conv.rateDB(i) }
+
+// Flux is the drying flux at reading i, kg/(m²·h), with the tray area.
+func (p *Points) Flux(i int) float64 { return p.conv.flux(i) }
+
+// moistureOf turns a reading's net mass into moisture: X = m/S(t) − 1 with
+// the dry solids S at its time (less each removal before it).
+type moistureOf struct {
+	t, net, rate []float64
+	reject       []uint8
+	solids       *solids // nil: no moisture figures
+	x0, xe       float64
+	area         float64
+}
+
+func (c *moistureOf) x(i int) float64 {
+	if c == nil || c.solids == nil || c.reject[i] == RejOrder || !(c.net[i] > 0) {
+		return math.NaN()
+	}
+	return c.net[i]/c.solids.at(c.t[i]) - 1
+}
+
+func (c *moistureOf) mr(i int) float64 {
+	if c == nil || !(c.x0 > c.xe) {
+		return math.NaN()
+	}
+	return (c.x(i) - c.xe) / (c.x0 - c.xe)
+}
+
+func (c *moistureOf) rateDB(i int) float64 {
+	if math.IsNaN(c.x(i)) || math.IsNaN(c.rate[i]) {
+		return math.NaN()
+	}
+	return c.rate[i] / c.solids.at(c.t[i])
+}
+
+func (c *moistureOf) flux(i int) float64 {
+	if math.IsNaN(c.x(i)) || math.IsNaN(c.rate[i]) || !(c.area > 0) {
+		return math.NaN()
+	}
+	return c.rate[i] / 1000 / c.area
 }
 
 // Result is everything parch reports about a run. NaN means "cannot be
@@ -130,7 +185,7 @@ func Analyze(s Series, setup Setup, opt Options) (*Result, error) {
 	if err != nil {
 		return nil, err
 	}
-	r.spread(pick, why)
+	r.spread(s.TimeH, pick, why)
 	return r, nil
 }
 
@@ -148,7 +203,7 @@ func gather[T any](v []T, idx []int) []T {
 
 // spread maps the figures of the readings analysed (pick) back onto every
 // reading of the series, marking the others with why they were left out.
-func (r *Result) spread(pick []int, why []uint8) {
+func (r *Result) spread(t []float64, pick []int, why []uint8) {
 	n := len(why)
 	widen := func(v []float64) []float64 {
 		out := make([]float64, n)
@@ -163,8 +218,7 @@ func (r *Result) spread(pick []int, why []uint8) {
 		return out
 	}
 	p := &r.Points
-	p.NetG, p.SmoothG, p.RateG, p.RateDB = widen(p.NetG), widen(p.SmoothG), widen(p.RateG), widen(p.RateDB)
-	p.Flux, p.X, p.WBPct, p.MR = widen(p.Flux), widen(p.X), widen(p.WBPct), widen(p.MR)
+	p.NetG, p.SmoothG, p.RateG = widen(p.NetG), widen(p.SmoothG), widen(p.RateG)
 	rej := append([]uint8(nil), why...)
 	for j, i := range pick {
 		if j < len(p.Reject) {
@@ -172,6 +226,11 @@ func (r *Result) spread(pick []int, why []uint8) {
 		}
 	}
 	p.Reject = rej
+	if p.conv != nil {
+		c := *p.conv
+		c.t, c.net, c.rate, c.reject = t, p.NetG, p.RateG, p.Reject
+		p.conv = &c
+	}
 	r.Readings, r.AfterCut = 0, 0
 	order, jumps := 0, 0
 	for _, w := range why {
@@ -237,11 +296,16 @@ func smoothSegments(t, m []float64, keep []bool, breaks []float64, sd float64) (
 
 // binned averages kept, finite values into at most maxN equal time bins.
 func binned(t, v []float64, keep []bool, maxN int) ([]float64, []float64) {
+	return binnedBy(t, keep, maxN, func(i int) float64 { return v[i] })
+}
+
+// binnedBy is binned with the values given by v.
+func binnedBy(t []float64, keep []bool, maxN int, v func(int) float64) ([]float64, []float64) {
 	// One pass to count and find the span, one to bin: nothing the size of
 	// the run is copied when it is binned.
 	n, first, last := 0, -1, -1
 	for i := range t {
-		if keep[i] && !math.IsNaN(v[i]) {
+		if keep[i] && !math.IsNaN(v(i)) {
 			n++
 			if first < 0 {
 				first = i
@@ -252,9 +316,11 @@ func binned(t, v []float64, keep []bool, maxN int) ([]float64, []float64) {
 	if n <= maxN {
 		tt, vv := make([]float64, 0, n), make([]float64, 0, n)
 		for i := range t {
-			if keep[i] && !math.IsNaN(v[i]) {
-				tt = append(tt, t[i])
-				vv = append(vv, v[i])
+			if keep[i] {
+				if x := v(i); !math.IsNaN(x) {
+					tt = append(tt, t[i])
+					vv = append(vv, x)
+				}
 			}
 		}
 		return tt, vv
@@ -264,7 +330,11 @@ func binned(t, v []float64, keep []bool, maxN int) ([]float64, []float64) {
 	bt, bv := make([]float64, 0, maxN), make([]float64, 0, maxN)
 	sumT, sumV, c, bin := 0.0, 0.0, 0, 0
 	for i := first; i <= last; i++ {
-		if !keep[i] || math.IsNaN(v[i]) {
+		if !keep[i] {
+			continue
+		}
+		x := v(i)
+		if math.IsNaN(x) {
 			continue
 		}
 		b := min(int((t[i]-t0)/w), maxN-1)
@@ -275,7 +345,7 @@ func binned(t, v []float64, keep []bool, maxN int) ([]float64, []float64) {
 		}
 		bin = b
 		sumT += t[i]
-		sumV += v[i]
+		sumV += x
 		c++
 	}
 	if c > 0 {

@@ -42,8 +42,8 @@ func TestLiveAgreesWithAnalyze(t *testing.T) {
 			sumSq += e * e
 			nSq++
 		}
-		if math.Abs(p.X-full.Points.X[i]) > 1e-6 {
-			t.Fatalf("reading %d: live X %v, analysed %v", i, p.X, full.Points.X[i])
+		if math.Abs(p.X-full.Points.X(i)) > 1e-6 {
+			t.Fatalf("reading %d: live X %v, analysed %v", i, p.X, full.Points.X(i))
 		}
 	}
 	rms := math.Sqrt(sumSq / float64(nSq))

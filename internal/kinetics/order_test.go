@@ -77,8 +77,8 @@ func TestAnalyzeOutOfOrderAndCut(t *testing.T) {
 	if r.Readings != len(s.TimeH) || r.RejectedBy["out_of_order"] != 2 || r.RejectedBy["duplicate_time"] != 1 {
 		t.Errorf("readings %d, rejected %v", r.Readings, r.RejectedBy)
 	}
-	if len(r.Points.X) != len(s.TimeH) {
-		t.Errorf("points for %d readings, want %d", len(r.Points.X), len(s.TimeH))
+	if r.Points.Len() != len(s.TimeH) {
+		t.Errorf("points for %d readings, want %d", r.Points.Len(), len(s.TimeH))
 	}
 	c, err := Analyze(s, setup, Options{UntilH: 3})
 	if err != nil {
@@ -116,8 +116,8 @@ func TestMoistureRatioInput(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if x := r.Points.X; math.Abs(x[0]-4) > 1e-9 || math.Abs(x[6]-0.192*4) > 1e-9 {
-		t.Errorf("X from MR: %v", x)
+	if x := r.Points.X; math.Abs(x(0)-4) > 1e-9 || math.Abs(x(6)-0.192*4) > 1e-9 {
+		t.Errorf("X from MR: %v, %v", x(0), x(6))
 	}
 	if math.IsNaN(r.Projection.TargetH) || r.Projection.TargetH < 1.5 {
 		t.Errorf("projection to 30 %% wb (X 0.43) from X 0.77: %+v", r.Projection)

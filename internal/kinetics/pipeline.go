@@ -51,7 +51,7 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 	// stages above found: they run side by side, each with its own
 	// warnings, put in the result in this order.
 	var wPeriods, wFits, wDiff, wProj warnings
-	fitT, fitMR := binned(t, r.Points.MR, c.keep, opt.MaxFitPoints)
+	fitT, fitMR := binnedBy(t, c.keep, opt.MaxFitPoints, mo.conv.mr)
 	r.FitPoints = len(fitT)
 	fittable := mo.solids != nil && len(fitT) >= 5 && minOf(fitMR) <= 0.95
 	project := mo.solids != nil && !math.IsNaN(setup.TargetX()) && !mo.ratioOnly
@@ -81,7 +81,7 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 			if !project {
 				return
 			}
-			r.track = projection(t, r.Points.X, c.keep, mo.xe, r.InitialMoistureDB, setup.TargetX(), opt, wProj.add)
+			r.track = projection(t, c.keep, mo.conv.x, mo.xe, r.InitialMoistureDB, setup.TargetX(), opt, wProj.add)
 			if math.IsNaN(r.TargetReachedH) {
 				r.Projection = backtestProjection(r.track)
 				if r.Projection.Why != "" {
@@ -298,9 +298,7 @@ type moistened struct {
 	m0        float64 // initial mass
 	xe        float64 // equilibrium moisture the moisture ratio uses
 	ratioOnly bool    // a moisture ratio with no initial moisture: no moisture contents
-	x, wb, mr []float64
-	rateDB    []float64
-	flux      []float64
+	conv      *moistureOf
 	initialDB float64
 	finalDB   float64
 	targetWB  float64
@@ -312,9 +310,10 @@ type moistened struct {
 }
 
 // moisture is the third stage: the dry solids over time (less each
-// removal), and from them every reading's moisture content, wet and dry
-// basis, moisture ratio, the rate per gram of solids and per square metre,
-// and when the target was reached.
+// removal), from which every reading's moisture content (wet and dry
+// basis), moisture ratio, and rate per gram of solids and per square metre
+// follow (Points works them out when asked), and when the target was
+// reached.
 func moisture(s Series, setup Setup, c cleaned, sm smoothed, warn func(string, ...any)) moistened {
 	t := s.TimeH
 	n := len(t)
@@ -335,7 +334,7 @@ func moisture(s Series, setup Setup, c cleaned, sm smoothed, warn func(string, .
 	if s.Kind == SeriesMass {
 		checkRemovals(warn, c.removed, t, c.net, c.keep)
 	}
-	mo.x, mo.wb, mo.mr, mo.rateDB, mo.flux = nanSlice(n), nanSlice(n), nanSlice(n), nanSlice(n), nanSlice(n)
+	mo.conv = &moistureOf{t: t, net: c.net, rate: sm.rate, reject: c.reject, solids: mo.solids, xe: mo.xe, x0: nan, area: setup.AreaM2}
 	sp := mo.solids
 	if sp == nil {
 		return mo
@@ -345,26 +344,9 @@ func moisture(s Series, setup Setup, c cleaned, sm smoothed, warn func(string, .
 	mo.dryEndG = sEnd
 	x0 := mo.m0/sp.s0 - 1
 	mo.initialDB = x0
+	mo.conv.x0 = x0
 	if !(x0 > xe) {
 		warn("initial moisture %.3g (dry basis) is not above the equilibrium moisture %.3g: moisture ratio not defined", x0, xe)
-	}
-	for i := 0; i < n; i++ {
-		if c.reject[i] == RejOrder || !(c.net[i] > 0) {
-			continue
-		}
-		sol := sp.at(t[i])
-		x := c.net[i]/sol - 1
-		mo.x[i] = x
-		mo.wb[i] = 100 * DryToWet(x)
-		if x0 > xe {
-			mo.mr[i] = (x - xe) / (x0 - xe)
-		}
-		if !math.IsNaN(sm.rate[i]) {
-			mo.rateDB[i] = sm.rate[i] / sol
-			if setup.AreaM2 > 0 {
-				mo.flux[i] = sm.rate[i] / 1000 / setup.AreaM2
-			}
-		}
 	}
 	xf := mo.finalG/sEnd - 1
 	mo.finalDB = xf
@@ -389,8 +371,7 @@ func moisture(s Series, setup Setup, c cleaned, sm smoothed, warn func(string, .
 
 // setMoisture puts the moisture stage's figures in the result.
 func (r *Result) setMoisture(mo moistened) {
-	p := &r.Points
-	p.X, p.WBPct, p.MR, p.RateDB, p.Flux = mo.x, mo.wb, mo.mr, mo.rateDB, mo.flux
+	r.Points.conv = mo.conv
 	r.InitialMassG, r.FinalMassG = mo.m0, mo.finalG
 	if mo.solids == nil {
 		return
@@ -484,7 +465,7 @@ func diffusivity(fitT, fitMR []float64, firstH float64, cr *ConstantRate, setup 
 // projection is the stage that gathers what the projection works on: the
 // kept moisture contents, binned, as free moisture, with the reference
 // runs that meet this run's moisture.
-func projection(t, X []float64, keep []bool, xe, x0, xt float64, opt Options, warn func(string, ...any)) *track {
+func projection(t []float64, keep []bool, x func(int) float64, xe, x0, xt float64, opt Options, warn func(string, ...any)) *track {
 	var refs []*Reference
 	for _, ref := range append([]*Reference{opt.Reference}, opt.MoreReferences...) {
 		if ref == nil {
@@ -497,7 +478,7 @@ func projection(t, X []float64, keep []bool, xe, x0, xt float64, opt Options, wa
 		}
 		refs = append(refs, ref.ForEquilibrium(xe))
 	}
-	return newTrack(t, X, keep, xe, x0, xt, refs)
+	return newTrack(t, keep, x, xe, x0, xt, refs)
 }
 
 // backtestProjection is the last stage: each method is replayed at earlier

@@ -22,7 +22,7 @@ func BenchmarkProjection(b *testing.B) {
 		b.Run(fmt.Sprintf("n=%d", n), func(b *testing.B) {
 			b.ReportAllocs()
 			for b.Loop() {
-				tr := newTrack(t, x, keep, 0.05, 6.45, 0.22, nil)
+				tr := newTrack(t, keep, func(i int) float64 { return x[i] }, 0.05, 6.45, 0.22, nil)
 				if p := tr.project(); math.IsNaN(p.TargetH) {
 					b.Fatal(p.Why)
 				}

@@ -32,19 +32,19 @@ var ErrReferenceUnusable = errors.New("reference run has no usable moisture rati
 
 // NewReference takes the characteristic curve of an analysed run.
 func NewReference(name string, s Series, r *Result) (*Reference, error) {
-	if r == nil || len(r.Points.MR) == 0 {
+	if r == nil || r.Points.Len() == 0 {
 		return nil, fmt.Errorf("%s: %w (give its initial moisture or dry mass)", name, ErrReferenceUnusable)
 	}
-	keep := make([]bool, len(r.Points.MR))
+	keep := make([]bool, r.Points.Len())
 	any := false
-	for i, v := range r.Points.MR {
-		keep[i] = r.Points.Reject[i] == KeepOK && !math.IsNaN(v)
+	for i := range keep {
+		keep[i] = r.Points.Reject[i] == KeepOK && !math.IsNaN(r.Points.MR(i))
 		any = any || keep[i]
 	}
 	if !any {
 		return nil, fmt.Errorf("%s: %w (give its initial moisture or dry mass)", name, ErrReferenceUnusable)
 	}
-	t, mr := binned(s.TimeH[:len(keep)], r.Points.MR, keep, maxBins)
+	t, mr := binnedBy(s.TimeH[:len(keep)], keep, maxBins, r.Points.MR)
 	ref, err := ReferenceFromCurve(name, t, mr)
 	if err != nil {
 		return nil, err
@@ -52,12 +52,12 @@ func NewReference(name string, s Series, r *Result) (*Reference, error) {
 	if s.Kind != SeriesMR || !math.IsNaN(r.InitialMoistureDB) {
 		ref.X0 = r.InitialMoistureDB
 		ref.XEnd = math.Inf(1)
-		for i, x := range r.Points.X {
-			if keep[i] && x < ref.XEnd {
+		for i := range keep {
+			if x := r.Points.X(i); keep[i] && x < ref.XEnd {
 				ref.XEnd = x
 			}
 		}
-		ref.xt, ref.x = binned(s.TimeH[:len(keep)], r.Points.X, keep, maxBins)
+		ref.xt, ref.x = binnedBy(s.TimeH[:len(keep)], keep, maxBins, r.Points.X)
 	}
 	return ref, nil
 }

@@ -56,8 +56,8 @@ func BenchmarkStages(b *testing.B) {
 	sm := rate(t, c)
 	mo := moisture(s, setup, c, sm, nowarn)
 	cr, _ := periods(t, c, sm, mo.solids, setup)
-	fitT, fitMR := binned(t, mo.mr, c.keep, 2000)
-	tr := projection(t, mo.x, c.keep, mo.xe, mo.initialDB, setup.TargetX(), Options{}, nowarn)
+	fitT, fitMR := binnedBy(t, c.keep, 2000, mo.conv.mr)
+	tr := projection(t, c.keep, mo.conv.x, mo.xe, mo.initialDB, setup.TargetX(), Options{}, nowarn)
 	stages := []struct {
 		name string
 		run  func()
@@ -66,9 +66,9 @@ func BenchmarkStages(b *testing.B) {
 		{"rate", func() { rate(t, c) }},
 		{"moisture", func() { moisture(s, setup, c, sm, nowarn) }},
 		{"periods", func() { periods(t, c, sm, mo.solids, setup) }},
-		{"fits", func() { binned(t, mo.mr, c.keep, 2000); fits(fitT, fitMR, nowarn) }},
+		{"fits", func() { binnedBy(t, c.keep, 2000, mo.conv.mr); fits(fitT, fitMR, nowarn) }},
 		{"diffusivity", func() { diffusivity(fitT, fitMR, t[sm.first], cr, setup, nowarn) }},
-		{"projection", func() { projection(t, mo.x, c.keep, mo.xe, mo.initialDB, setup.TargetX(), Options{}, nowarn) }},
+		{"projection", func() { projection(t, c.keep, mo.conv.x, mo.xe, mo.initialDB, setup.TargetX(), Options{}, nowarn) }},
 		{"backtest", func() { tr.bt = nil; backtestProjection(tr) }},
 		{"Analyze", func() { Analyze(s, setup, Options{}) }},
 	}

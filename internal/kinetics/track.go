@@ -14,31 +14,19 @@ type track struct {
 	level     float64      // the target as free moisture
 	refs      []*Reference // reference runs, the first the main one
 	bt        *backtest    // built on first use
-	fullT     []float64    // kept readings before binning, for a history cut at the target
-	fullX     []float64
+	fullT     []float64    // the readings before binning, for a history cut at the target
+	fullKeep  []bool
+	fullX     func(int) float64
 	reachedAt float64
 }
 
-// newTrack gathers the kept readings with a moisture (t, X, keep) for the
-// projection to xt (dry basis), with equilibrium xe and initial moisture x0.
-func newTrack(t, X []float64, keep []bool, xe, x0, xt float64, refs []*Reference) *track {
-	tr := &track{xe: xe, y0: x0 - xe, level: xt - xe, refs: refs, reachedAt: math.NaN()}
-	mask := make([]bool, len(t))
-	n := 0
-	for i := range t {
-		mask[i] = keep[i] && !math.IsNaN(X[i])
-		if mask[i] {
-			n++
-		}
-	}
-	tr.fullT, tr.fullX = make([]float64, 0, n), make([]float64, 0, n)
-	for i := range t {
-		if mask[i] {
-			tr.fullT = append(tr.fullT, t[i])
-			tr.fullX = append(tr.fullX, X[i])
-		}
-	}
-	tr.t, tr.y = binned(t, X, mask, maxBins)
+// newTrack gathers the kept readings with a moisture (times t, kept where
+// keep, moisture x(i) dry basis) for the projection to xt, with
+// equilibrium xe and initial moisture x0.
+func newTrack(t []float64, keep []bool, x func(int) float64, xe, x0, xt float64, refs []*Reference) *track {
+	tr := &track{xe: xe, y0: x0 - xe, level: xt - xe, refs: refs, reachedAt: math.NaN(),
+		fullT: t, fullKeep: keep, fullX: x}
+	tr.t, tr.y = binnedBy(t, keep, maxBins, x)
 	for i := range tr.y {
 		tr.y[i] -= xe
 	}
@@ -114,13 +102,13 @@ func (r *Result) ProjectionHistory() []HistoryPoint {
 	if !math.IsNaN(actual) {
 		// Replay only up to the target: what came after cannot be used
 		// by a projection made before it.
+		// The readings up to the first one with a moisture past the target.
 		k := sort.SearchFloat64s(tr.fullT, actual+1e-9)
-		k = min(k+1, len(tr.fullT))
-		keep := make([]bool, k)
-		for i := range keep {
-			keep[i] = true
+		for k < len(tr.fullT) && !(tr.fullKeep[k] && !math.IsNaN(tr.fullX(k))) {
+			k++
 		}
-		tr = newTrack(tr.fullT[:k], tr.fullX[:k], keep, tr.xe, tr.y0+tr.xe, tr.level+tr.xe, tr.refs)
+		k = min(k+1, len(tr.fullT))
+		tr = newTrack(tr.fullT[:k], tr.fullKeep[:k], tr.fullX, tr.xe, tr.y0+tr.xe, tr.level+tr.xe, tr.refs)
 	}
 	if len(tr.t) < 4 {
 		return nil
