@@ -165,6 +165,9 @@ func Analyze(s Series, setup Setup, opt Options) (*Result, error) {
 	if n == 0 {
 		return nil, ErrNoReadings
 	}
+	if allInOrder(s.TimeH, opt.UntilH) { // the usual log: nothing to pick
+		return analyzeInOrder(s, setup, opt)
+	}
 	pick, why := inOrder(s.TimeH, opt.UntilH)
 	if len(pick) == 0 {
 		for _, w := range why {

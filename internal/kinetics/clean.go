@@ -284,12 +284,9 @@ func buildTrend(t, m []float64, keep []bool, w float64, breaks []float64) *trend
 // The times must increase.
 func RejectSpikes(t, m []float64, keep []bool, blockH float64, breaks []float64, floorG float64, passes int) int {
 	rejected := 0
-	var res, buf, own []float64
+	var buf, own []float64
 	for pass := 0; pass < passes; pass++ {
 		tr := buildTrend(t, m, keep, blockH, breaks)
-		if res == nil {
-			res = make([]float64, len(t))
-		}
 		// Residuals, and each block's median residual: the blocks follow
 		// one another in time, so one buffer holds the block in hand.
 		own = own[:0]
@@ -306,12 +303,11 @@ func RejectSpikes(t, m []float64, keep []bool, blockH float64, breaks []float64,
 			if math.IsNaN(t0) {
 				t0 = t[i]
 			}
-			res[i] = math.Abs(m[i] - cur.at(t[i]))
 			b := int((t[i] - t0) / blockH)
 			for len(own) < b {
 				flush()
 			}
-			buf = append(buf, res[i])
+			buf = append(buf, math.Abs(m[i]-cur.at(t[i])))
 		}
 		if math.IsNaN(t0) {
 			return rejected
@@ -338,14 +334,16 @@ func RejectSpikes(t, m []float64, keep []bool, blockH float64, breaks []float64,
 			// The first reading above the trend is kept: drying is fastest
 			// at the start, where a trend through blocks bends least well,
 			// and the initial mass is the one figure everything rests on.
+			// The residual again, rather than a column the size of the run.
+			at := cur.at(t[i])
 			if first {
 				first = false
-				if m[i] > cur.at(t[i]) {
+				if m[i] > at {
 					continue
 				}
 			}
 			b := int((t[i] - t0) / blockH)
-			if res[i] > math.Max(6*scale[b], floorG) {
+			if math.Abs(m[i]-at) > math.Max(6*scale[b], floorG) {
 				keep[i] = false
 				found++
 			}

@@ -31,6 +31,7 @@ func inOrder(t []float64, cut float64) (pick []int, why []uint8) {
 		}
 	}
 	if sorted {
+		pick = make([]int, 0, n)
 		for i := range t {
 			if why[i] == KeepOK {
 				pick = append(pick, i)
@@ -83,6 +84,21 @@ func inOrder(t []float64, cut float64) (pick []int, why []uint8) {
 		}
 	}
 	return dropJumps(t, pick, why), why
+}
+
+// allInOrder reports whether inOrder would pick every reading: finite
+// times that increase, none after the cut, no gap over MaxGapH.
+func allInOrder(t []float64, cut float64) bool {
+	cutting := !math.IsNaN(cut) && cut > 0
+	for i, v := range t {
+		if math.IsNaN(v) || math.IsInf(v, 0) || cutting && v > cut {
+			return false
+		}
+		if i > 0 && !(v > t[i-1] && v-t[i-1] <= MaxGapH) {
+			return false
+		}
+	}
+	return true
 }
 
 // MaxGapH is the longest pause between readings taken as one run: a

@@ -169,8 +169,16 @@ type cleaned struct {
 func clean(s Series, setup Setup) cleaned {
 	t := s.TimeH
 	n := len(t)
-	c := cleaned{net: make([]float64, n), reject: make([]uint8, n), keep: make([]bool, n), mrX0: math.NaN()}
+	c := cleaned{reject: make([]uint8, n), keep: make([]bool, n), mrX0: math.NaN()}
 	tare := setup.TareG
+	// Masses with no tare are their own net values: the column is shared,
+	// not copied (neither is ever written after this).
+	shared := s.Kind == SeriesMass && tare == 0
+	if shared {
+		c.net = s.Value
+	} else {
+		c.net = make([]float64, n)
+	}
 	// A moisture ratio becomes dry-basis moisture when the initial moisture
 	// is known: X = X_e + MR·(X0 − X_e).
 	if s.Kind == SeriesMR && !math.IsNaN(setup.InitialMoistureWB) {
@@ -186,7 +194,9 @@ func clean(s Series, setup Setup) cleaned {
 		default:
 			v = 1 + v
 		}
-		c.net[i] = v
+		if !shared {
+			c.net[i] = v
+		}
 		switch {
 		case i > 0 && t[i] < t[i-1]:
 			c.reject[i] = RejOrder
@@ -205,24 +215,54 @@ func clean(s Series, setup Setup) cleaned {
 		return c
 	}
 
-	// Balance noise and resolution from the kept readings.
-	km := make([]float64, 0, c.kept)
-	firstT, lastT := math.NaN(), math.NaN()
+	// Balance noise, resolution and typical mass from the kept readings,
+	// in one pass that keeps only the samples each needs.
+	nk := c.kept
+	var firstT, lastT float64
+	var first []float64 // the first 5000, for the resolution
+	// NoiseSD's second differences: every step-th triple of kept readings.
+	step := max(1, (nk-2+noiseSample-1)/noiseSample)
+	var d2 []float64
+	// thin's evenly spaced masses, for the median mass.
+	var mm []float64
+	thinStep := float64(nk) / float64(noiseSample)
+	nextThin := 0
+	q := 0 // index among the kept readings
+	var m1, m2 float64
 	for i := range c.keep {
-		if c.keep[i] {
-			km = append(km, c.net[i])
-			if math.IsNaN(firstT) {
-				firstT = t[i]
-			}
-			lastT = t[i]
+		if !c.keep[i] {
+			continue
 		}
+		v := c.net[i]
+		if q == 0 {
+			firstT = t[i]
+		}
+		lastT = t[i]
+		if q < 5000 {
+			first = append(first, v)
+		}
+		if q >= 2 && nk >= 5 && (q-2)%step == 0 {
+			d2 = append(d2, v-2*m1+m2) // middle reading q−1
+		}
+		if nk <= noiseSample || q == int(float64(nextThin)*thinStep) {
+			mm = append(mm, v)
+			nextThin++
+		}
+		m2, m1 = m1, v
+		q++
 	}
-	nk := len(km)
-	c.noiseSD = NoiseSD(km)
-	res := Resolution(km)
+	c.noiseSD = math.NaN()
+	if nk >= 5 {
+		med := medianInPlace(d2)
+		for j := range d2 {
+			d2[j] = math.Abs(d2[j] - med)
+		}
+		c.noiseSD = 1.4826 * medianInPlace(d2) / math.Sqrt(6)
+	}
+	res := Resolution(first)
 	// The typical mass sets how large a drop counts as a step: the median
 	// of 10^5 evenly spaced readings is plenty for that.
-	medMass := medianInPlace(thin(km, noiseSample)) // km is reordered
+	medMass := medianInPlace(mm)
 	c.span = lastT - firstT
 	c.dt = c.span / math.Max(float64(nk-1), 1)
 	c.blockH = math.Max(5.0/60, 7*c.dt)

@@ -219,7 +219,10 @@ func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions, lines 
 				seen := map[string]bool{}
 				chans = make([][]float32, len(tb.Channels))
 				for j, c := range tb.Channels {
-					if !seen[c.Name] { // two columns of one name: the first is kept
+					switch {
+					case c.Name == ChannelInvented:
+						run.Invented = true // the mark is the column; its values are not kept
+					case !seen[c.Name]: // two columns of one name: the first is kept
 						chans[j] = make([]float32, 0, n)
 					}
 					seen[c.Name] = true
