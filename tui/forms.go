@@ -201,6 +201,10 @@ func (m *Model) rebuildLive() {
 			m.live.Remove(rem[j].g)
 			j++
 		}
+		if i < len(m.th)-liveTail { // figures no one sees: the analysis covers them
+			m.live.CatchUp(m.th[i], m.raw[i], m.stable[i])
+			continue
+		}
 		p := m.live.Add(m.th[i], m.raw[i], m.stable[i])
 		m.livePt = p
 		if p.Kept {

@@ -32,7 +32,9 @@ type Options struct {
 	AirHigh   float64
 	Now       func() time.Time
 	Bell      func() // rings the terminal bell (nil: none)
-	// AnalyzeEvery is the least time between background analyses (default 3 s).
+	// AnalyzeEvery is the least time between background analyses (default
+	// 3 s); on a long run the wait is also at least analyzeShare times the
+	// last analysis, so that analysing keeps a core at most 5 % busy.
 	AnalyzeEvery time.Duration
 	// TickEvery drives the clock and the stall check (default 1 s; negative:
 	// no clock, for tests that drive time themselves).
@@ -45,6 +47,10 @@ type Options struct {
 	// Notice is shown on the message line at the start (a warning about
 	// the setup, say).
 	Notice string
+	// Backlog is a log read before the dashboard starts (watching a long
+	// recording): its readings are taken from the columns at once, and
+	// Events goes on from where it ends.
+	Backlog *session.Log
 }
 
 type mode int
@@ -91,7 +97,7 @@ type Model struct {
 	th     []float64 // hours from the first reading
 	raw    []float64 // grams as read
 	stable []int8
-	air    []float64 // air temperature channel (NaN where absent)
+	airNow float64   // the newest reading's air temperature (NaN: none)
 	lastT  time.Time // newest reading's own time
 	seen   time.Time // wall clock when it came
 
@@ -105,6 +111,7 @@ type Model struct {
 	analysing bool
 	dirty     bool // something changed since the last analysis
 	lastRun   time.Time
+	lastTook  time.Duration // how long the last analysis took
 
 	notes []noteItem
 
@@ -137,7 +144,14 @@ type Model struct {
 	errMsg          string
 	rang            bool // the target bell has rung
 	accepted        map[float64]bool
+	// first brings the analysis of a backlog, started before the program
+	// runs so that it overlaps the rest of the start.
+	first chan tea.Msg
 }
+
+// analyzeShare: the wait between analyses is at least this many times the
+// last one's length (a 0.3 s analysis of a million readings: every 6 s).
+const analyzeShare = 20
 
 // New makes the dashboard.
 func New(opt Options) Model {
@@ -166,13 +180,23 @@ func New(opt Options) Model {
 	m.lastGood = m.livePt
 	m.flash = opt.Notice
 	m.suspectAt = math.NaN()
+	m.airNow = math.NaN()
 	m.warnAt = -1
+	if opt.Backlog != nil {
+		m.addBacklog(opt.Backlog)
+	}
 	return m
 }
 
-// Init starts reading the source and the clock.
+// Init starts reading the source and the clock; with a backlog, the
+// analysis of it is already on its way (started in New).
 func (m Model) Init() tea.Cmd {
-	return tea.Batch(waitForEvents(m.opt.Events), m.tick())
+	cmds := []tea.Cmd{waitForEvents(m.opt.Events), m.tick()}
+	if m.first != nil {
+		ch := m.first
+		cmds = append(cmds, func() tea.Msg { return <-ch })
+	}
+	return tea.Batch(cmds...)
 }
 
 func waitForEvents(ch <-chan []ingest.Event) tea.Cmd {
@@ -215,7 +239,7 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 		m.dirty = true
 		return m, m.maybeAnalyze()
 	case analysisMsg:
-		m.analysing = false
+		m.analysing, m.lastTook = false, msg.took
 		if msg.err == nil && msg.res != nil {
 			m.res, m.resN, m.resGen = msg.res, msg.n, msg.gen
 		} else if msg.err != nil {
@@ -253,9 +277,16 @@ func (m *Model) maybeAnalyze() tea.Cmd {
 	}
 	// Wait between analyses, unless the last one saw less than half of
 	// what is here now (a log still loading at start).
-	if m.res != nil && 2*m.resN >= len(m.th) && m.opt.Now().Sub(m.lastRun) < m.opt.AnalyzeEvery {
+	wait := max(m.opt.AnalyzeEvery, analyzeShare*m.lastTook)
+	if m.res != nil && 2*m.resN >= len(m.th) && m.opt.Now().Sub(m.lastRun) < wait {
 		return nil
 	}
+	return m.analysis()
+}
+
+// analysis marks an analysis of everything so far as started and returns
+// the work, to run in the background.
+func (m *Model) analysis() tea.Cmd {
 	m.analysing, m.dirty, m.lastRun = true, false, m.opt.Now()
 	n := len(m.th)
 	// Prefixes of append-only slices: later appends never touch them.
@@ -270,8 +301,9 @@ func (m *Model) maybeAnalyze() tea.Cmd {
 				msg = analysisMsg{n: n, setup: setup, gen: gen, err: fmt.Errorf("analysis failed: %v", p)}
 			}
 		}()
+		began := time.Now()
 		res, err := kinetics.Analyze(s, setup, kinetics.Options{Reference: ref, MoreReferences: more})
-		return analysisMsg{res: res, n: n, setup: setup, gen: gen, err: err}
+		return analysisMsg{res: res, n: n, setup: setup, gen: gen, err: err, took: time.Since(began)}
 	}
 }
 

@@ -21,6 +21,7 @@ type analysisMsg struct {
 	setup kinetics.Setup
 	gen   int // the setup generation it was computed with
 	err   error
+	took  time.Duration
 }
 
 // noteSavedMsg: a note or setup line was written (or not).

@@ -160,8 +160,8 @@ func (m *Model) alerts(w int) string {
 	if m.livePt.Period == kinetics.PeriodSteady || m.lastGood.Period == kinetics.PeriodSteady {
 		a = append(a, "= STEADY WEIGHT: end of run?")
 	}
-	if n := len(m.air); n > 0 && !math.IsNaN(m.opt.AirLow) && !math.IsNaN(m.air[n-1]) {
-		if v := m.air[n-1]; v < m.opt.AirLow || v > m.opt.AirHigh {
+	if len(m.th) > 0 && !math.IsNaN(m.opt.AirLow) && !math.IsNaN(m.airNow) {
+		if v := m.airNow; v < m.opt.AirLow || v > m.opt.AirHigh {
 			a = append(a, fmt.Sprintf("! AIR %.1f °C outside %g–%g", v, m.opt.AirLow, m.opt.AirHigh))
 		}
 	}
@@ -238,7 +238,7 @@ func (m *Model) figures(w, h int) []string {
 	if m.res != nil && m.res.Best != nil {
 		out = append(out, rowFit("model", m.res.Best.Model.Title, fmt.Sprintf("R² %.4f", m.res.Best.R2)))
 	}
-	if v := m.air[n-1]; !math.IsNaN(v) {
+	if v := m.airNow; !math.IsNaN(v) {
 		out = append(out, row("air", fmt.Sprintf("%.1f °C", v)))
 	}
 	// More room: the rest of the analysis.

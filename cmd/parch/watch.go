@@ -89,8 +89,12 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 	for k, v := range sf.defaults {
 		base[k] = v
 	}
+	// A log being watched is read once: its setup here, its readings for
+	// the dashboard below.
+	var attached *session.Log
 	if src.session != "" {
 		if l, err := session.Load(src.session); err == nil {
+			attached = l
 			for k, v := range l.SetupParams() {
 				base[k] = v
 			}
@@ -116,9 +120,11 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 		if err := session.CheckHeader(src.session); err != nil {
 			return err
 		}
-		log, err := session.Load(src.session)
-		if err != nil {
-			return err
+		log := attached
+		if log == nil {
+			if log, err = session.Load(src.session); err != nil {
+				return err
+			}
 		}
 		report.ApplyParams(&setup, log.SetupParams())
 		report.ApplyParams(&setup, flagParams)
@@ -139,7 +145,13 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 			}
 		}
 		events := make(chan []ingest.Event, 4)
+		// The dashboard takes what was read from the columns, and the
+		// follower goes on from the end of it.
 		f := &ingest.Follow{Path: src.session}
+		if pos, ok := logEnd(src.session, log.End); ok {
+			f.Resume, f.ResumeNote = pos, "from the end of what was read at the start"
+			opt.Backlog = log
+		}
 		go func() {
 			defer close(events)
 			if err := f.Run(ctx, events); err != nil {
@@ -302,6 +314,24 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 		return uiErr
 	}
 	return ferr
+}
+
+// logEnd is the position just past what a log read back held, for a
+// follower to go on from (false when it cannot be taken).
+func logEnd(path string, end int64) (*ingest.Position, bool) {
+	if end <= 0 {
+		return nil, false
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, false
+	}
+	defer f.Close()
+	tail := make([]byte, min(end, 32))
+	if n, _ := f.ReadAt(tail, end-int64(len(tail))); n != len(tail) {
+		return nil, false
+	}
+	return &ingest.Position{File: path, Offset: end, Tail: tail}, true
 }
 
 // replay turns a log read back into events for the dashboard.

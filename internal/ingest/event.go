@@ -23,6 +23,9 @@ const (
 	KindPosition    = "position" // how far a followed file has been read (Pos is set)
 	KindStopped     = "stopped"  // the recording stopped (a full disk...): Detail says why
 	KindSetup       = "setup"    // run parameters in a followed session log (Note holds the setup event)
+	// KindReopened: a followed session log's recording started again after
+	// it had stopped.
+	KindReopened = "reopened"
 )
 
 // Position is how far a followed file has been read, for resuming after a

@@ -40,6 +40,9 @@ type Follow struct {
 	// logger may start after parch), with a warning saying so, instead of
 	// an error.
 	WaitForFile bool
+	// ResumeNote, when set, replaces what the started event says of a
+	// Resume position that held (a log read before following it, say).
+	ResumeNote string
 
 	noNotify bool // tests: behave as on a share where no change events arrive
 }
@@ -94,6 +97,8 @@ func (f *Follow) Run(ctx context.Context, out chan<- []Event) error {
 	}
 	started := "following " + f.Path
 	switch {
+	case resumed && f.ResumeNote != "":
+		started += " " + f.ResumeNote
 	case resumed:
 		started += fmt.Sprintf(" from byte %d, where the log's last recorder stopped", f.Resume.Offset)
 	case f.Resume != nil:
@@ -418,6 +423,29 @@ func (d *tableDecoder) decode(lines []string, mtime time.Time) []Event {
 	return evs
 }
 
+// SessionEvent is what a followed session log's note, setup or source line
+// says to a dashboard; false for lines that say nothing to it.
+func SessionEvent(e *session.Event) (Event, bool) {
+	switch e.Type {
+	case session.TypeNote:
+		return Event{T: e.T, Kind: KindNote, Note: e}, true
+	case session.TypeSetup:
+		return Event{T: e.T, Kind: KindSetup, Note: e}, true
+	case session.TypeSource:
+		switch e.Event {
+		case session.SourceLost, session.SourceBack:
+			return Event{T: e.T, Kind: e.Event, Detail: e.Detail}, true
+		case session.SourceStopped:
+			// The recorder of the followed log stopped: say so, do not
+			// wait for readings that will not come.
+			return Event{T: e.T, Kind: KindStopped, Detail: "the recording stopped: " + e.Detail}, true
+		case session.SourceReopened:
+			return Event{T: e.T, Kind: KindReopened, Detail: e.Detail}, true
+		}
+	}
+	return Event{}, false
+}
+
 // sessionDecoder follows another parch session log: its readings.
 type sessionDecoder struct{}
 
@@ -430,22 +458,9 @@ func (sessionDecoder) decode(lines []string, mtime time.Time) []Event {
 			continue
 		}
 		switch e.Type {
-		case session.TypeNote:
-			evs = append(evs, Event{T: e.T, Kind: KindNote, Note: e})
-			continue
-		case session.TypeSetup:
-			evs = append(evs, Event{T: e.T, Kind: KindSetup, Note: e})
-			continue
-		case session.TypeSource:
-			switch e.Event {
-			case session.SourceLost, session.SourceBack:
-				evs = append(evs, Event{T: e.T, Kind: e.Event, Detail: e.Detail})
-			case session.SourceStopped:
-				// The recorder of the followed log stopped: say so, do not
-				// wait for readings that will not come.
-				evs = append(evs, Event{T: e.T, Kind: KindStopped, Detail: "the recording stopped: " + e.Detail})
-			case session.SourceReopened:
-				evs = append(evs, Event{T: e.T, Kind: KindStarted, Detail: e.Detail})
+		case session.TypeNote, session.TypeSetup, session.TypeSource:
+			if ev, ok := SessionEvent(e); ok {
+				evs = append(evs, ev)
 			}
 			continue
 		case session.TypeReading:

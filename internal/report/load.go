@@ -96,40 +96,20 @@ func Load(path string, table ingest.TableOptions) (*Run, error) {
 	if len(head) == 0 {
 		return nil, fmt.Errorf("%s is empty: expected a parch session log or a CSV with a header row", path)
 	}
+	lines := session.CountLines(f)
 	if head[0] == '{' {
-		return loadSession(path, lr)
+		return loadSession(path, lr, lines)
 	}
 	table.AllowMoisture = true
-	return loadTable(path, lr, table, countLines(f))
-}
-
-// countLines counts the lines of a regular file without moving its read
-// position (0 for anything else), so that a long table's columns are
-// allocated once at their size: growing them copied each several times
-// over and held the old copies until the next collection.
-func countLines(f *os.File) int64 {
-	st, err := f.Stat()
-	if err != nil || !st.Mode().IsRegular() {
-		return 0
-	}
-	buf := make([]byte, 1<<20)
-	var n, off int64
-	for {
-		k, err := f.ReadAt(buf, off)
-		n += int64(bytes.Count(buf[:k], []byte{'\n'}))
-		off += int64(k)
-		if err != nil || k == 0 {
-			return n + 1 // a last line without its newline
-		}
-	}
+	return loadTable(path, lr, table, int64(lines))
 }
 
 // MaxLineBytes bounds a line of a file read for a report; longer lines are
 // skipped with a warning that names them, never held in memory.
 const MaxLineBytes = 1 << 20
 
-func loadSession(path string, lr *textline.Reader) (*Run, error) {
-	log, err := session.ReadLines(lr, path)
+func loadSession(path string, lr *textline.Reader, lines int) (*Run, error) {
+	log, err := session.ReadLinesSized(lr, path, lines)
 	if err != nil {
 		return nil, err
 	}

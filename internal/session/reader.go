@@ -20,12 +20,18 @@ type Readings struct {
 	MassG    []float64 // grams as received (before tare)
 	Stable   []int8    // 1 stable, -1 unstable, 0 not said
 	Channels map[string][]float32
+	hint     int // readings expected (the file's lines), for sizing the columns
 }
 
 // Len is the number of readings.
 func (r *Readings) Len() int { return len(r.TimeMs) }
 
 func (r *Readings) add(ms int64, mass float64, stable int8) {
+	if r.TimeMs == nil && r.hint > 0 { // sized once from the file's lines
+		r.TimeMs = make([]int64, 0, r.hint)
+		r.MassG = make([]float64, 0, r.hint)
+		r.Stable = make([]int8, 0, r.hint)
+	}
 	r.TimeMs = append(r.TimeMs, ms)
 	r.MassG = append(r.MassG, mass)
 	r.Stable = append(r.Stable, stable)
@@ -36,8 +42,11 @@ func (r *Readings) setChannel(name string, v float64) {
 	if r.Channels == nil {
 		r.Channels = map[string][]float32{}
 	}
-	col := r.Channels[name]
+	col, ok := r.Channels[name]
 	n := len(r.TimeMs)
+	if !ok {
+		col = make([]float32, 0, cap(r.TimeMs))
+	}
 	for len(col) < n-1 {
 		col = append(col, float32(math.NaN()))
 	}
@@ -72,6 +81,9 @@ type Log struct {
 	// counts all.
 	Warnings []string
 	Skipped  int
+	// End is the byte offset just past the last whole line read: a
+	// follower of the log goes on from there.
+	End int64
 }
 
 // SetupParams merges the numeric setup values of the log, later ones
@@ -122,7 +134,8 @@ func Load(path string) (*Log, error) {
 		return nil, fmt.Errorf("open session log: %w", err)
 	}
 	defer f.Close()
-	l, err := Read(f, path)
+	lr := textline.NewReader(f, MaxLineBytes)
+	l, err := readLines(lr, path, CountLines(f))
 	if err != nil {
 		return nil, err
 	}
@@ -141,7 +154,18 @@ const MaxLineBytes = 1 << 20
 
 // ReadLines is Read from a bounded line reader.
 func ReadLines(lr *textline.Reader, name string) (*Log, error) {
+	return readLines(lr, name, 0)
+}
+
+// ReadLinesSized is ReadLines with the number of lines expected (the
+// readings' columns are sized once); CountLines gives it for a file.
+func ReadLinesSized(lr *textline.Reader, name string, lines int) (*Log, error) {
+	return readLines(lr, name, lines)
+}
+
+func readLines(lr *textline.Reader, name string, hint int) (*Log, error) {
 	l := &Log{Path: name}
+	l.Readings.hint = hint
 	var d Decoder
 	err := d.scan(lr, name, func(e *Event, fast *FastReading) {
 		if fast != nil {
@@ -175,7 +199,7 @@ func ReadLines(lr *textline.Reader, name string) (*Log, error) {
 		case TypeSource:
 			l.Sources = append(l.Sources, *e)
 		}
-	}, l.warn)
+	}, l.warn, &l.End)
 	l.Readings.padChannels()
 	if err != nil {
 		return l, err
@@ -206,10 +230,31 @@ type Decoder struct {
 // are not valid events are reported to warn and skipped; a first line that
 // is not a session header is an error (the file is not ours).
 func (d *Decoder) Scan(r io.Reader, name string, fn func(e *Event, fast *FastReading), warn func(string, ...any)) error {
-	return d.scan(textline.NewReader(r, MaxLineBytes), name, fn, warn)
+	return d.scan(textline.NewReader(r, MaxLineBytes), name, fn, warn, nil)
 }
 
-func (d *Decoder) scan(lr *textline.Reader, name string, fn func(e *Event, fast *FastReading), warn func(string, ...any)) error {
+// CountLines counts the lines of a regular file without moving its read
+// position (0 for anything else): the readings' columns are then sized
+// once instead of grown and copied.
+func CountLines(f *os.File) int {
+	st, err := f.Stat()
+	if err != nil || !st.Mode().IsRegular() || st.Size() > 1<<40 {
+		return 0
+	}
+	buf := make([]byte, 1<<20)
+	var n, off int64
+	for {
+		k, err := f.ReadAt(buf, off)
+		n += int64(bytes.Count(buf[:k], []byte{'\n'}))
+		off += int64(k)
+		if err != nil || k == 0 {
+			return int(min(n+1, 1<<28))
+		}
+	}
+}
+
+// end, when not nil, is kept at the byte offset past the last whole line.
+func (d *Decoder) scan(lr *textline.Reader, name string, fn func(e *Event, fast *FastReading), warn func(string, ...any), end *int64) error {
 	for {
 		line, long, err := lr.Next()
 		lineNo := lr.No
@@ -237,6 +282,9 @@ func (d *Decoder) scan(lr *textline.Reader, name string, fn func(e *Event, fast 
 			return nil
 		}
 		complete := line[len(line)-1] == '\n'
+		if complete && end != nil {
+			*end = lr.Offset
+		}
 		body := bytes.TrimRight(line, "\r\n")
 		if lineNo == 1 {
 			if err := CheckHeaderLine(name, body); err != nil {

@@ -129,6 +129,12 @@ func TestTornLastLine(t *testing.T) {
 	if l.Readings.Len() != 5 || len(l.Warnings) != 1 || !strings.Contains(l.Warnings[0], "incomplete last line") {
 		t.Fatalf("readings %d warnings %q", l.Readings.Len(), l.Warnings)
 	}
+	// A follower goes on from the end of the last whole line: the torn one
+	// is read again when it is finished.
+	raw, _ := os.ReadFile(path)
+	if want := int64(strings.LastIndexByte(string(raw), '\n') + 1); l.End != want {
+		t.Errorf("End %d, want %d (just past the last newline)", l.End, want)
+	}
 	// Reopening closes the torn line and marks the gap; the torn text stays.
 	w2, err := Open(path, "parch test", t0.Add(time.Minute))
 	if err != nil {

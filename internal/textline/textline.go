@@ -14,10 +14,13 @@ import (
 // Reader reads lines of at most Max bytes; longer lines are skipped whole
 // (streamed past, never held) and reported with their number.
 type Reader struct {
-	br   *bufio.Reader
-	Max  int
-	No   int // number of the line last returned, from 1
-	long []byte
+	br  *bufio.Reader
+	Max int
+	No  int // number of the line last returned, from 1
+	// Offset is how many bytes the lines returned so far (and the lines
+	// skipped) take, terminators included.
+	Offset int64
+	long   []byte
 }
 
 // ErrBinary marks a line holding NUL bytes: not text (a binary file, or the
@@ -50,6 +53,7 @@ func (r *Reader) Next() (line []byte, skipped int64, err error) {
 		binary = binary || bytes.IndexByte(part, 0) >= 0
 		if rerr == nil && n == int64(len(part)) && !binary && len(part) <= r.Max {
 			r.No++
+			r.Offset += n
 			return part, 0, nil // the common case, without a copy
 		}
 		if !binary && skipped == 0 && len(r.long)+len(part) <= r.Max {
@@ -65,6 +69,7 @@ func (r *Reader) Next() (line []byte, skipped int64, err error) {
 			return nil, 0, rerr
 		}
 		r.No++
+		r.Offset += n
 		switch {
 		case binary:
 			return nil, 0, fmt.Errorf("line %d %w", r.No, ErrBinary)
