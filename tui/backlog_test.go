@@ -135,7 +135,7 @@ func BenchmarkOpenBacklog1M(b *testing.B) {
 
 // A long run is analysed again only at a pace that leaves the core mostly
 // free: at least analyzeShare times the last analysis's length apart (the
-// issue asks under 10 % of a core; this keeps it near 5 %).
+// issue asks under 10 % of a core; this keeps it near 4 %).
 func TestAnalysisPace(t *testing.T) {
 	now := start.Add(time.Hour)
 	m := New(Options{Setup: demoSetup(), TickEvery: -1, Now: func() time.Time { return now }, AirLow: math.NaN(), AirHigh: math.NaN()})
@@ -150,7 +150,7 @@ func TestAnalysisPace(t *testing.T) {
 	for _, c := range []struct {
 		after time.Duration
 		want  bool
-	}{{5 * time.Second, false}, {19 * time.Second, false}, {21 * time.Second, true}} {
+	}{{5 * time.Second, false}, {29 * time.Second, false}, {31 * time.Second, true}} {
 		now = m.lastRun.Add(c.after)
 		more(start.Add(time.Hour + c.after))
 		if got := m.maybeAnalyze() != nil; got != c.want {

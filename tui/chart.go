@@ -70,11 +70,16 @@ func (m *Model) viewValue(i int) float64 {
 	return m.inView(net, s)
 }
 
-// columns averages the kept readings into n columns over [t0, t1].
+// columns averages the kept readings into n columns over [t0, t1]. A long
+// run is averaged over at most chartSample evenly spaced readings, the
+// newest always among them: a chart is a few hundred cells, and the
+// dashboard draws it at every reading (all of a million readings, ten
+// times a second, kept a core half busy).
 func columns(n int, t0, t1 float64, count int, at func(i int) (float64, float64, bool)) []float64 {
 	sum := make([]float64, n)
 	cnt := make([]int, n)
-	for i := 0; i < count; i++ {
+	step := max(1, count/chartSample)
+	for i := (count - 1) % step; i < count; i += step {
 		t, v, ok := at(i)
 		if !ok || math.IsNaN(v) || math.IsInf(v, 0) {
 			continue
@@ -95,6 +100,9 @@ func columns(n int, t0, t1 float64, count int, at func(i int) (float64, float64,
 	}
 	return out
 }
+
+// chartSample bounds the readings a chart averages.
+const chartSample = 5000
 
 func finiteCount(v []float64) int {
 	n := 0
