@@ -71,6 +71,18 @@ type Row struct {
 	Channels map[string]float64
 }
 
+// Clone is a table of the same header for another goroutine: its own
+// scratch space and channel values, the rest shared (never written after
+// NewTable).
+func (tb *Table) Clone() *Table {
+	c := *tb
+	c.fields = nil
+	if tb.ChannelValues != nil {
+		c.ChannelValues = make([]float64, len(tb.ChannelValues))
+	}
+	return &c
+}
+
 // NewTable interprets a header line. The error names the header and says
 // what was expected.
 func NewTable(header string, opt TableOptions) (*Table, error) {

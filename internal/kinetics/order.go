@@ -31,8 +31,10 @@ func inOrder(t []float64, cut float64) (pick []int, why []uint8) {
 		}
 	}
 	if sorted {
-		pick = make([]int, 0, n)
 		for i := range t {
+			if pick == nil && why[i] == KeepOK {
+				pick = make([]int, 0, n-i) // sized once
+			}
 			if why[i] == KeepOK {
 				pick = append(pick, i)
 			}

@@ -146,6 +146,9 @@ func newResult(s Series) *Result {
 	return r
 }
 
+// stepPoints bounds the points the search for steps looks at.
+const stepPoints = 20000
+
 // cleaned is what the clean stage finds: every reading's net value and
 // whether it is kept, the balance's noise, and the steps (removals) that
 // break the run into segments.
@@ -283,10 +286,16 @@ func clean(s Series, setup Setup) cleaned {
 	if s.Kind == SeriesMass && nk >= 20 {
 		// Transient spikes first, so they are not taken for steps; the
 		// readings they cost near a real step come back below.
-		noSpikes := append([]bool(nil), c.keep...)
-		RejectSpikes(t, c.net, noSpikes, c.blockH, declared, floor, 1)
+		// A long run is searched as medians of bins of at least five
+		// readings (decimateForSteps): a median of five stands off two
+		// spikes, so the spike pass is needed only below that.
+		noSpikes := c.keep
+		if nk < 5*stepPoints {
+			noSpikes = append([]bool(nil), c.keep...)
+			RejectSpikes(t, c.net, noSpikes, c.blockH, declared, floor, 1)
+		}
 		limit := math.Max(math.Max(15*c.noiseSD, 5*res), 0.005*medMass)
-		dt, dm, dk, dblock := decimateForSteps(t, c.net, noSpikes, 20000)
+		dt, dm, dk, dblock := decimateForSteps(t, c.net, noSpikes, stepPoints)
 		steps := filterSteps(FindSteps(dt, dm, dk, dblock, limit, declared), limit, declared, c.blockH)
 		c.suspected = refineSteps(steps, t, c.net, c.keep, c.blockH)
 	}

@@ -81,3 +81,25 @@ func BenchmarkStages(b *testing.B) {
 		})
 	}
 }
+
+// The invented dense run above, analysed whole: the unannounced drop at
+// 5 h is found (of its own size) among spikes one reading in 2000, without
+// the spike pass a sparse log needs before its search for steps; the
+// announced one at 3 h is not reported again.
+func TestDenseRunStep(t *testing.T) {
+	s, setup := bench1M()
+	r, err := Analyze(s, setup, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(r.SuspectedRemovals) != 1 {
+		t.Fatalf("suspected removals %+v, want one at 5 h", r.SuspectedRemovals)
+	}
+	st := r.SuspectedRemovals[0]
+	if math.Abs(st.ElapsedH-5) > 0.01 || math.Abs(st.MassG-2.98) > 0.3 {
+		t.Errorf("suspected removal at %.3f h of %.2f g, want 5 h and 2.98 g", st.ElapsedH, st.MassG)
+	}
+	if r.RejectedBy["spike"] < 300 {
+		t.Errorf("spikes rejected %d; about 500 were put in (one in 2000, up to 3 g)", r.RejectedBy["spike"])
+	}
+}

@@ -12,10 +12,10 @@ import (
 	"math"
 	"os"
 	"parch/internal/textline"
+	"runtime"
 	"sort"
 	"strings"
 	"time"
-	"unsafe"
 
 	"parch/internal/ingest"
 	"parch/internal/kinetics"
@@ -153,138 +153,82 @@ func loadSession(path string, lr *textline.Reader, lines int) (*Run, error) {
 func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions, lines int64) (*Run, error) {
 	run := &Run{Path: path, Format: "csv", Params: map[string]float64{}, Channels: map[string][]float32{}}
 	var tb *ingest.Table
-	var chans [][]float32 // by channel; nil for the second of two columns of one name
-	lineNo := 0
-	var t0 time.Time
-	var e0 time.Duration
-	first := true
-	skipped := 0
+	var asm *assembler
+	var skips []skip // lines not read, by line number, for the warnings
+	var dec *decoders
+	var b *batch
 	for {
 		raw, long, err := lr.Next()
-		lineNo = lr.No
+		lineNo := lr.No
 		if errors.Is(err, textline.ErrBinary) {
 			if tb == nil {
 				return nil, fmt.Errorf("%s: %w: expected a CSV with a header row", path, err)
 			}
-			skipped++
-			if skipped <= 10 {
-				run.Warnings = append(run.Warnings, fmt.Sprintf("%s: %v, skipped", path, err))
-			}
+			skips = append(skips, skip{lineNo, fmt.Sprintf("%s: %v, skipped", path, err)})
 			continue
 		}
 		if err != nil && err != io.EOF {
+			dec.stop()
 			return nil, fmt.Errorf("%s: %w", path, err)
 		}
 		if long > 0 {
 			if tb == nil {
 				return nil, fmt.Errorf("%s: line 1 (the header) is %d bytes long: expected a CSV header row", path, long)
 			}
-			skipped++
-			if skipped <= 10 {
-				run.Warnings = append(run.Warnings, fmt.Sprintf("%s: line %d skipped: %d bytes long, over the %d-byte limit", path, lineNo, long, MaxLineBytes))
-			}
+			skips = append(skips, skip{lineNo, fmt.Sprintf("%s: line %d skipped: %d bytes long, over the %d-byte limit", path, lineNo, long, MaxLineBytes)})
 			continue
 		}
 		raw = bytes.TrimRight(raw, "\r\n")
-		if len(raw) > 0 {
-			if tb == nil {
-				if tb, err = ingest.NewTable(string(raw), opt); err != nil {
-					return nil, fmt.Errorf("%s: %w", path, err)
-				}
-				tb.ChannelValues = make([]float64, len(tb.Channels))
-				n := int(min(max(lines-1, 0), 1<<28)) // the rows, as counted
-				run.Series.TimeH = make([]float64, 0, n)
-				run.Series.Value = make([]float64, 0, n)
-				run.Series.Stable = make([]int8, 0, n)
-				seen := map[string]bool{}
-				chans = make([][]float32, len(tb.Channels))
-				for j, c := range tb.Channels {
-					switch {
-					case c.Name == ChannelInvented:
-						run.Invented = true // the mark is the column; its values are not kept
-					case !seen[c.Name]: // two columns of one name: the first is kept
-						chans[j] = make([]float32, 0, n)
-					}
-					seen[c.Name] = true
-				}
-				continue
+		switch {
+		case len(raw) == 0:
+		case tb == nil:
+			if tb, err = ingest.NewTable(string(raw), opt); err != nil {
+				return nil, fmt.Errorf("%s: %w", path, err)
 			}
-			if len(bytes.TrimSpace(raw)) == 0 {
-				continue
+			tb.ChannelValues = make([]float64, len(tb.Channels)) // no map per row
+			asm = newAssembler(run, tb, int(min(max(lines-1, 0), 1<<28)))
+			// Long tables are decoded on every core, in batches of rows
+			// put back together in order.
+			workers := 1
+			if lines > parallelRows {
+				workers = runtime.GOMAXPROCS(0)
 			}
-			// The line is read in place: Decode keeps nothing of it once it
-			// returns (its errors are formatted copies), and the reader's
-			// buffer is not touched until the next line.
-			row, derr := tb.Decode(unsafe.String(&raw[0], len(raw)))
-			if derr != nil {
-				skipped++
-				if skipped <= 10 {
-					run.Warnings = append(run.Warnings, fmt.Sprintf("%s: line %d skipped: %v", path, lineNo, derr))
+			dec = newDecoders(tb, workers)
+			b = dec.batch()
+		case len(bytes.TrimSpace(raw)) == 0:
+		default:
+			b.add(lineNo, raw)
+			if b.full() {
+				for _, done := range dec.submit(b) {
+					skips = asm.take(done, path, skips)
+					dec.recycle(done)
 				}
-				continue
-			}
-			if first {
-				first = false
-				t0, e0 = row.Time, row.Elapsed
-				if !t0.IsZero() {
-					run.Start = t0.UTC()
-				}
-			}
-			var h float64
-			if !row.Time.IsZero() {
-				h = row.Time.Sub(t0).Hours()
-				if run.TimesMs == nil { // clock times: kept for the record
-					run.TimesMs = make([]int64, len(run.Series.TimeH), cap(run.Series.TimeH))
-				}
-			} else {
-				h = (row.Elapsed - e0).Hours()
-			}
-			if run.TimesMs != nil {
-				var ms int64
-				if !row.Time.IsZero() {
-					ms = row.Time.UnixMilli()
-				}
-				run.TimesMs = append(run.TimesMs, ms)
-			}
-			run.Series.TimeH = append(run.Series.TimeH, h)
-			run.Series.Value = append(run.Series.Value, row.MassG)
-			run.Series.Stable = append(run.Series.Stable, row.Stable.Int8())
-			for j, col := range chans {
-				if col != nil {
-					chans[j] = append(col, float32(tb.ChannelValues[j]))
-				}
+				b = dec.batch()
 			}
 		}
 		if err != nil {
 			if errors.Is(err, io.EOF) {
 				break
 			}
+			dec.stop()
 			return nil, fmt.Errorf("read %s: %w", path, err)
-		}
-	}
-	if tb != nil {
-		for j, c := range tb.Channels {
-			if chans[j] != nil {
-				run.Channels[c.Name] = chans[j]
-			}
 		}
 	}
 	if tb == nil {
 		return nil, fmt.Errorf("%s: no header row: expected a CSV with a header like elapsed_s,mass_g", path)
 	}
-	if skipped > 10 {
-		run.Warnings = append(run.Warnings, fmt.Sprintf("%s: %d lines skipped in all", path, skipped))
+	for _, done := range dec.finish(b) {
+		skips = asm.take(done, path, skips)
 	}
-	n := len(run.Series.TimeH)
-	for name, col := range run.Channels {
-		for len(col) < n {
-			col = append(col, float32(math.NaN()))
+	asm.done()
+	sort.SliceStable(skips, func(i, j int) bool { return skips[i].line < skips[j].line })
+	for i, sk := range skips {
+		if i < 10 {
+			run.Warnings = append(run.Warnings, sk.msg)
 		}
-		run.Channels[name] = col
 	}
-	if _, ok := run.Channels[ChannelInvented]; ok {
-		run.Invented = true
-		delete(run.Channels, ChannelInvented)
+	if len(skips) > 10 {
+		run.Warnings = append(run.Warnings, fmt.Sprintf("%s: %d lines skipped in all", path, len(skips)))
 	}
 	switch tb.Quantity {
 	case ingest.QuantityMoistureDB:
@@ -293,6 +237,16 @@ func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions, lines 
 		run.Series.Kind = kinetics.SeriesMR
 	}
 	return run, nil
+}
+
+// parallelRows: tables with more lines than this are decoded on every core.
+// A variable so that a test can send a small table through the same path.
+var parallelRows int64 = 50_000
+
+// skip is a line not read, and the warning that says so.
+type skip struct {
+	line int
+	msg  string
 }
 
 // ApplyParams sets setup values from a log's setup keys.
