@@ -416,7 +416,7 @@ func (m *Model) rateChart(w, h int) []string {
 	n := m.resN
 	if m.rateView == 0 {
 		t1 := math.Max(m.th[n-1], 1e-3)
-		data := columns(cols, 0, t1, n, func(i int) (float64, float64, bool) { return m.th[i], pts.RateG[i], m.kept(i) })
+		data := columns(cols, 0, t1, n, func(i int) (float64, float64, bool) { return m.th[i], pts.RateG(i), m.kept(i) })
 		lo, hi := seriesRange([][]float64{data})
 		yfmt, lw := yFormat(lo, hi)
 		lines = append(lines, plot([][]float64{data}, w, rows, nil, nil, yfmt)...)
@@ -434,7 +434,7 @@ func (m *Model) rateChart(w, h int) []string {
 	if !(xhi > xlo) {
 		return lines
 	}
-	data := columns(cols, xlo, xhi, n, func(i int) (float64, float64, bool) { return pts.X(i), pts.RateG[i], m.kept(i) })
+	data := columns(cols, xlo, xhi, n, func(i int) (float64, float64, bool) { return pts.X(i), pts.RateG(i), m.kept(i) })
 	lo, hi := seriesRange([][]float64{data})
 	yfmt, lw := yFormat(lo, hi)
 	lines = append(lines, plot([][]float64{data}, w, rows, nil, nil, yfmt)...)

@@ -57,7 +57,7 @@ func Readings(w io.Writer, b *Bundle) error {
 			net = raw - b.Setup.TareG
 		}
 		row = append(row, num(b.Run.Series.TimeH[i], 6), t, num(raw, 4), num(net, 4), num(p.WBPct(i), 4), num(p.X(i), 6), num(p.MR(i), 6),
-			num(massOnly(p.RateG[i], mass), 5), num(p.RateDB(i), 6))
+			num(massOnly(p.RateG(i), mass), 5), num(p.RateDB(i), 6))
 		if flux {
 			row = append(row, num(p.Flux(i), 6))
 		}

@@ -217,7 +217,7 @@ func ratePlot(b *Bundle) (*plot.Plot, error) {
 	if !r.MassKnown {
 		return nil, nil
 	}
-	data := series(b, func(i int) float64 { return r.Points.X(i) }, func(i int) float64 { return r.Points.RateG[i] })
+	data := series(b, func(i int) float64 { return r.Points.X(i) }, func(i int) float64 { return r.Points.RateG(i) })
 	if len(data) < 2 {
 		return nil, nil
 	}

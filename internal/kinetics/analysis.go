@@ -39,15 +39,20 @@ type Options struct {
 // time and the dry solids: stored, they were five more columns the size of
 // the run (40 MB at a million readings).
 type Points struct {
-	Reject  []uint8   // 0 kept, else a RejectReason code
-	NetG    []float64 // value after tare
-	SmoothG []float64 // smoothed mass
-	RateG   []float64 // drying rate −dm/dt, g/h
-	conv    *moistureOf
+	Reject []uint8   // 0 kept, else a RejectReason code
+	NetG   []float64 // value after tare
+	smooth *smoothing
+	conv   *moistureOf
 }
 
 // Len is the number of readings.
 func (p *Points) Len() int { return len(p.NetG) }
+
+// SmoothG is the smoothed mass at reading i.
+func (p *Points) SmoothG(i int) float64 { return p.smooth.smooth(i) }
+
+// RateG is the drying rate −dm/dt at reading i, g/h.
+func (p *Points) RateG(i int) float64 { return p.smooth.rate(i) }
 
 // X is the dry-basis moisture at reading i.
 func (p *Points) X(i int) float64 { return p.conv.x(i) }
@@ -67,8 +72,9 @@ func (p *Points) Flux(i int) float64 { return p.conv.flux(i) }
 // moistureOf turns a reading's net mass into moisture: X = m/S(t) − 1 with
 // the dry solids S at its time (less each removal before it).
 type moistureOf struct {
-	t, net, rate []float64
-	reject       []uint8
+	t, net []float64
+	rate   func(int) float64
+	reject []uint8
 	solids       *solids // nil: no moisture figures
 	x0, xe       float64
 	area         float64
@@ -89,17 +95,17 @@ func (c *moistureOf) mr(i int) float64 {
 }
 
 func (c *moistureOf) rateDB(i int) float64 {
-	if math.IsNaN(c.x(i)) || math.IsNaN(c.rate[i]) {
+	if math.IsNaN(c.x(i)) {
 		return math.NaN()
 	}
-	return c.rate[i] / c.solids.at(c.t[i])
+	return c.rate(i) / c.solids.at(c.t[i]) // NaN where there is no rate
 }
 
 func (c *moistureOf) flux(i int) float64 {
-	if math.IsNaN(c.x(i)) || math.IsNaN(c.rate[i]) || !(c.area > 0) {
+	if math.IsNaN(c.x(i)) || !(c.area > 0) {
 		return math.NaN()
 	}
-	return c.rate[i] / 1000 / c.area
+	return c.rate(i) / 1000 / c.area
 }
 
 // Result is everything parch reports about a run. NaN means "cannot be
@@ -221,7 +227,7 @@ func (r *Result) spread(t []float64, pick []int, why []uint8) {
 		return out
 	}
 	p := &r.Points
-	p.NetG, p.SmoothG, p.RateG = widen(p.NetG), widen(p.SmoothG), widen(p.RateG)
+	p.NetG = widen(p.NetG)
 	rej := append([]uint8(nil), why...)
 	for j, i := range pick {
 		if j < len(p.Reject) {
@@ -229,9 +235,20 @@ func (r *Result) spread(t []float64, pick []int, why []uint8) {
 		}
 	}
 	p.Reject = rej
+	if p.smooth != nil {
+		sm := *p.smooth
+		sm.index = make([]int32, n)
+		for i := range sm.index {
+			sm.index[i] = -1
+		}
+		for j, i := range pick {
+			sm.index[i] = int32(j)
+		}
+		p.smooth = &sm
+	}
 	if p.conv != nil {
 		c := *p.conv
-		c.t, c.net, c.rate, c.reject = t, p.NetG, p.RateG, p.Reject
+		c.t, c.net, c.rate, c.reject = t, p.NetG, p.smooth.rate, p.Reject
 		p.conv = &c
 	}
 	r.Readings, r.AfterCut = 0, 0
@@ -277,11 +294,11 @@ func indexAt(t []float64, keep []bool, at float64) int {
 	return best
 }
 
-// smoothSegments runs SmoothRate on each stretch between steps. The
-// times increase, so a stretch is a run of readings.
-func smoothSegments(t, m []float64, keep []bool, breaks []float64, sd float64) ([]float64, []float64) {
+// smoothSegments fits each stretch between steps. The times increase, so
+// a stretch is a run of readings.
+func smoothSegments(t, m []float64, keep []bool, breaks []float64, sd float64) *smoothing {
 	n := len(t)
-	smooth, rate := nanSlice(n), nanSlice(n)
+	sm := &smoothing{t: t, keep: keep}
 	lo := 0
 	for b := 0; b <= len(breaks); b++ {
 		hi := n
@@ -291,10 +308,10 @@ func smoothSegments(t, m []float64, keep []bool, breaks []float64, sd float64) (
 				hi++
 			}
 		}
-		smoothInto(t, m, keep, lo, hi, sd, smooth, rate)
+		sm.segs = append(sm.segs, fitSegment(t, m, keep, lo, hi, sd))
 		lo = hi
 	}
-	return smooth, rate
+	return sm
 }
 
 // binned averages kept, finite values into at most maxN equal time bins.

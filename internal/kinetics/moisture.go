@@ -28,7 +28,7 @@ func (s *solids) at(t float64) float64 {
 // of mass Δm taken out at mass m leaves solids m_s·(1 − Δm/m), the piece
 // having the moisture of the rest. A dry mass from an oven test is the
 // solids left at the end.
-func solidsProfile(warn func(string, ...any), kind SeriesKind, setup Setup, t, smooth []float64, keep []bool, m0 float64) *solids {
+func solidsProfile(warn func(string, ...any), kind SeriesKind, setup Setup, t []float64, smooth func(int) float64, keep []bool, m0 float64) *solids {
 	if kind != SeriesMass {
 		return &solids{s0: 1}
 	}
@@ -45,7 +45,7 @@ func solidsProfile(warn func(string, ...any), kind SeriesKind, setup Setup, t, s
 			warn("removal at %.2f h is before the first reading: ignored", rm.ElapsedH)
 			continue
 		}
-		mb := smooth[j]
+		mb := smooth(j)
 		if !(rm.MassG < mb) {
 			warn("removal of %.2f g at %.2f h is not less than the mass then (%.2f g): ignored", rm.MassG, rm.ElapsedH, mb)
 			continue
@@ -91,20 +91,21 @@ func lastKeptBefore(t []float64, keep []bool, at float64) int {
 
 // reachedAt is the first time the smoothed moisture is at or below xt,
 // interpolated between readings; NaN if never.
-func reachedAt(t, smooth []float64, keep []bool, sp *solids, xt float64) float64 {
+func reachedAt(t []float64, sm *smoothing, sp *solids, xt float64) float64 {
 	prevT, prevX := math.NaN(), math.NaN()
-	for i := range t {
-		if !keep[i] || math.IsNaN(smooth[i]) {
-			continue
-		}
-		x := smooth[i]/sp.at(t[i]) - 1
+	at := math.NaN()
+	sm.each(func(i int, smooth, _ float64) bool {
+		x := smooth/sp.at(t[i]) - 1
 		if x <= xt {
 			if math.IsNaN(prevT) || prevX == x {
-				return t[i]
+				at = t[i]
+			} else {
+				at = prevT + (t[i]-prevT)*(prevX-xt)/(prevX-x)
 			}
-			return prevT + (t[i]-prevT)*(prevX-xt)/(prevX-x)
+			return false
 		}
 		prevT, prevX = t[i], x
-	}
-	return math.NaN()
+		return true
+	})
+	return at
 }

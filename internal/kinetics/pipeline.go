@@ -37,7 +37,7 @@ func analyzeInOrder(s Series, setup Setup, opt Options) (*Result, error) {
 	}
 
 	sm := rate(t, c)
-	r.Points.SmoothG, r.Points.RateG = sm.smooth, sm.rate
+	r.Points.smooth = sm.s
 	if sm.first < 0 {
 		r.warn("too few usable readings to smooth: %d kept, and fewer than 5 of them between two steps or at distinct times", c.kept)
 		return r, nil
@@ -318,26 +318,32 @@ func clean(s Series, setup Setup) cleaned {
 }
 
 // smoothed is what the rate stage finds: the smoothed mass and the drying
-// rate at every kept reading, and the first and last reading that has them
-// (−1 when none has).
+// rate at every kept reading (worked out when asked), the first and last
+// reading that has them (−1 when none has), how many have a rate, and the
+// highest rate.
 type smoothed struct {
-	smooth, rate []float64
-	first, last  int
+	s           *smoothing
+	first, last int
+	known       int
+	peak        float64
 }
 
 // rate is the second stage: a local polynomial (Savitzky–Golay style) over
 // each stretch between steps gives the smoothed mass and −dm/dt.
 func rate(t []float64, c cleaned) smoothed {
 	sm := smoothed{first: -1, last: -1}
-	sm.smooth, sm.rate = smoothSegments(t, c.net, c.keep, c.breaks, c.noiseSD)
-	for i := range c.keep {
-		if c.keep[i] && !math.IsNaN(sm.smooth[i]) {
-			if sm.first < 0 {
-				sm.first = i
-			}
-			sm.last = i
+	sm.s = smoothSegments(t, c.net, c.keep, c.breaks, c.noiseSD)
+	sm.s.each(func(i int, _, rt float64) bool {
+		if sm.first < 0 {
+			sm.first = i
 		}
-	}
+		sm.last = i
+		if !math.IsNaN(rt) {
+			sm.known++
+			sm.peak = math.Max(sm.peak, rt)
+		}
+		return true
+	})
 	return sm
 }
 
@@ -378,12 +384,12 @@ func moisture(s Series, setup Setup, c cleaned, sm smoothed, warn func(string, .
 	if !math.IsNaN(setup.InitialMassG) && s.Kind == SeriesMass {
 		mo.m0 = setup.InitialMassG
 	}
-	mo.finalG = sm.smooth[sm.last]
-	mo.solids = solidsProfile(warn, s.Kind, setup, t, sm.smooth, c.keep, mo.m0)
+	mo.finalG = sm.s.smooth(sm.last)
+	mo.solids = solidsProfile(warn, s.Kind, setup, t, sm.s.smooth, c.keep, mo.m0)
 	if s.Kind == SeriesMass {
 		checkRemovals(warn, c.removed, t, c.net, c.keep)
 	}
-	mo.conv = &moistureOf{t: t, net: c.net, rate: sm.rate, reject: c.reject, solids: mo.solids, xe: mo.xe, x0: nan, area: setup.AreaM2}
+	mo.conv = &moistureOf{t: t, net: c.net, rate: sm.s.rate, reject: c.reject, solids: mo.solids, xe: mo.xe, x0: nan, area: setup.AreaM2}
 	sp := mo.solids
 	if sp == nil {
 		return mo
@@ -408,7 +414,7 @@ func moisture(s Series, setup Setup, c cleaned, sm smoothed, warn func(string, .
 	} else if !math.IsNaN(xt) {
 		mo.targetWB = 100 * DryToWet(xt)
 		mo.targetG = sEnd * (1 + xt)
-		mo.reachedH = reachedAt(t, sm.smooth, c.keep, sp, xt)
+		mo.reachedH = reachedAt(t, sm.s, sp, xt)
 		if mo.reachedH == t[sm.first] {
 			warn("the target %.1f %% wet basis is at or above the initial moisture: reached at the start", mo.targetWB)
 		}
@@ -443,17 +449,34 @@ func periods(t []float64, c cleaned, sm smoothed, sp *solids, setup Setup) (*Con
 }
 
 func constantRate(t []float64, c cleaned, sm smoothed, sp *solids) *ConstantRate {
-	peakRate := 0.0
-	for i := range sm.rate {
-		if c.keep[i] && sm.rate[i] > peakRate {
-			peakRate = sm.rate[i]
-		}
-	}
+	peakRate := math.Max(sm.peak, 0)
 	hPeak := RateWindow(peakRate, c.noiseSD, c.dt, 3*c.dt, math.Max(math.Min(c.span/6, 2), 3*c.dt))
 	rateSD := math.Sqrt(1.5 * c.noiseSD * c.noiseSD * c.dt / math.Pow(hPeak, 3))
-	cr := FindConstantRate(t, sm.smooth, sm.rate, rateSD, hPeak) // NaN where not kept
+	// The readings with a rate, every step-th of a dense log (and the
+	// last): FindConstantRate's own thinning, done here so that the run's
+	// rates are never gathered whole.
+	step := max(1, sm.known/4000)
+	var tt, ss, rr []float64
+	k, took := 0, false
+	var lt, ls, lr float64
+	sm.s.each(func(i int, s, r float64) bool {
+		if math.IsNaN(r) {
+			return true
+		}
+		took = k%step == 0
+		if took {
+			tt, ss, rr = append(tt, t[i]), append(ss, s), append(rr, r)
+		}
+		k++
+		lt, ls, lr = t[i], s, r
+		return true
+	})
+	if k > 0 && !took {
+		tt, ss, rr = append(tt, lt), append(ss, ls), append(rr, lr)
+	}
+	cr := FindConstantRate(tt, ss, rr, rateSD, hPeak)
 	if cr != nil && sp != nil && !cr.Ongoing {
-		cr.CriticalDB = sm.smooth[indexAt(t, c.keep, cr.EndH)]/sp.at(cr.EndH) - 1
+		cr.CriticalDB = sm.s.smooth(indexAt(t, c.keep, cr.EndH))/sp.at(cr.EndH) - 1
 	}
 	return cr
 }

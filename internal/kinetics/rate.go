@@ -114,14 +114,15 @@ func RateWindow(rate, sd, dt, minH, maxH float64) float64 {
 // the windows then hold tens of bins, not thousands of readings.
 func SmoothRate(t, m []float64, keep []bool, sd float64) (smooth, rate []float64) {
 	n := len(t)
+	sm := &smoothing{t: t, keep: keep, segs: []segFit{fitSegment(t, m, keep, 0, n, sd)}}
 	smooth, rate = nanSlice(n), nanSlice(n)
-	smoothInto(t, m, keep, 0, n, sd, smooth, rate)
+	sm.each(func(i int, s, r float64) bool { smooth[i], rate[i] = s, r; return true })
 	return
 }
 
-// smoothInto is SmoothRate on the readings [lo, hi), in time order,
-// written into smooth and rate (left as they are where not kept).
-func smoothInto(t, m []float64, keep []bool, lo, hi int, sd float64, smooth, rate []float64) {
+// fitSegment is SmoothRate's fit of the readings [lo, hi), in time order.
+func fitSegment(t, m []float64, keep []bool, lo, hi int, sd float64) segFit {
+	seg := segFit{lo: lo, hi: hi}
 	k, first, last := 0, -1, -1
 	for i := lo; i < hi; i++ {
 		if keep[i] {
@@ -133,7 +134,7 @@ func smoothInto(t, m []float64, keep []bool, lo, hi int, sd float64, smooth, rat
 		}
 	}
 	if k < 3 {
-		return
+		return seg // nothing smoothed: NaN throughout
 	}
 	if !(sd > 0) {
 		sd = 1e-3
@@ -169,34 +170,23 @@ func smoothInto(t, m []float64, keep []bool, lo, hi int, sd float64, smooth, rat
 		sd /= math.Sqrt(float64(k) / float64(len(bt))) // the noise of a bin mean
 	}
 	bs, br := smoothPoints(bt, bm, bw, sd)
+	seg.fitted = true
 	if bw == nil {
-		j := 0
+		// Each kept reading its own fit: kept in order, ranked below.
+		seg.own, seg.sm, seg.rt = true, bs, br
+		seg.rank = make([]int32, 0, last-first+1)
+		j := int32(0)
 		for i := first; i <= last; i++ {
+			seg.rank = append(seg.rank, j)
 			if keep[i] {
-				smooth[i], rate[i] = bs[j], br[j]
 				j++
 			}
 		}
-		return
+		seg.first = first
+		return seg
 	}
-	// Carry the bin fits to the readings: linear between bin centres.
-	j := 0
-	for i := first; i <= last; i++ {
-		if !keep[i] {
-			continue
-		}
-		for j+1 < len(bt) && bt[j+1] < t[i] {
-			j++
-		}
-		if j+1 >= len(bt) || t[i] <= bt[j] {
-			smooth[i] = bs[j] - br[j]*(t[i]-bt[j])
-			rate[i] = br[j]
-			continue
-		}
-		f := (t[i] - bt[j]) / (bt[j+1] - bt[j])
-		smooth[i] = bs[j] + f*(bs[j+1]-bs[j])
-		rate[i] = br[j] + f*(br[j+1]-br[j])
-	}
+	seg.bt, seg.sm, seg.rt = bt, bs, br
+	return seg
 }
 
 // maxFitBins bounds the points the smoothing fits work on.
