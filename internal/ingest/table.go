@@ -280,7 +280,7 @@ func (tb *Table) number(s string) (float64, bool) {
 	if tb.comma && strings.IndexByte(s, ',') >= 0 && strings.IndexByte(s, '.') < 0 {
 		s = strings.Replace(s, ",", ".", 1)
 	}
-	v, err := strconv.ParseFloat(s, 64)
+	v, err := parseFloat(s)
 	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
 		return 0, false
 	}

@@ -185,6 +185,20 @@ func loadTable(path string, lr *textline.Reader, opt ingest.TableOptions, lines 
 			if tb, err = ingest.NewTable(string(raw), opt); err != nil {
 				return nil, fmt.Errorf("%s: %w", path, err)
 			}
+			// Only the channels kept are decoded: the invented-data mark is
+			// the column's presence, and of two columns of one name the
+			// first is kept.
+			kept, seen := tb.Channels[:0:0], map[string]bool{}
+			for _, c := range tb.Channels {
+				switch {
+				case c.Name == ChannelInvented:
+					run.Invented = true
+				case !seen[c.Name]:
+					kept = append(kept, c)
+				}
+				seen[c.Name] = true
+			}
+			tb.Channels = kept
 			tb.ChannelValues = make([]float64, len(tb.Channels)) // no map per row
 			asm = newAssembler(run, tb, int(min(max(lines-1, 0), 1<<28)))
 			// Long tables are decoded on every core, in batches of rows

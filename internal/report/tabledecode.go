@@ -155,7 +155,7 @@ func (d *decoders) recycle(b *batch) { d.free = append(d.free, b) }
 type assembler struct {
 	run   *Run
 	names []string
-	chans [][]float32 // by channel; nil for a channel not kept
+	chans [][]float32 // by channel
 	first bool
 	t0    time.Time
 	e0    time.Duration
@@ -169,15 +169,8 @@ func newAssembler(run *Run, tb *ingest.Table, n int) *assembler {
 	run.Series.TimeH = make([]float64, 0, n)
 	run.Series.Value = make([]float64, 0, n)
 	run.Series.Stable = make([]int8, 0, n)
-	seen := map[string]bool{}
-	for j, c := range tb.Channels {
-		switch {
-		case c.Name == ChannelInvented:
-			run.Invented = true // the mark is the column; its values are not kept
-		case !seen[c.Name]: // two columns of one name: the first is kept
-			a.chans[j] = make([]float32, 0, n)
-		}
-		seen[c.Name] = true
+	for j := range tb.Channels {
+		a.chans[j] = make([]float32, 0, n)
 	}
 	return a
 }
