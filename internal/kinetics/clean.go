@@ -384,13 +384,24 @@ func FindSteps(t, m []float64, keep []bool, blockH, limit float64, known []float
 		scratch = append(scratch[:0], v...)
 		return medianInPlace(scratch)
 	}
+	// Times in order (as a run's are) have their median in the middle.
+	medT := med
+	if sort.Float64sAreSorted(tt) {
+		medT = func(v []float64) float64 {
+			h := len(v) / 2
+			if len(v)%2 == 1 {
+				return v[h]
+			}
+			return (v[h-1] + v[h]) / 2
+		}
+	}
 	// The Theil–Sen-like slope between the medians of the two halves.
 	slope := func(t, m []float64) float64 {
 		h := len(t) / 2
 		if h < 1 {
 			return 0
 		}
-		dt := med(t[len(t)-h:]) - med(t[:h])
+		dt := medT(t[len(t)-h:]) - medT(t[:h])
 		if dt == 0 {
 			return 0
 		}
@@ -405,7 +416,7 @@ func FindSteps(t, m []float64, keep []bool, blockH, limit float64, known []float
 		// before: [i−k, i), after: [i, i+k)
 		bt, bm := tt[i-k:i], mm[i-k:i]
 		at, am := tt[i:i+k], mm[i:i+k]
-		pred := med(bm) + slope(bt, bm)*(med(at)-med(bt))
+		pred := med(bm) + slope(bt, bm)*(medT(at)-medT(bt))
 		drop := pred - med(am)
 		if drop <= limit {
 			continue
@@ -415,7 +426,7 @@ func FindSteps(t, m []float64, keep []bool, blockH, limit float64, known []float
 		for j := i + 1; j < min(i+k, n-k+1); j++ {
 			bt, bm := tt[j-k:j], mm[j-k:j]
 			at, am := tt[j:j+k], mm[j:j+k]
-			d := med(bm) + slope(bt, bm)*(med(at)-med(bt)) - med(am)
+			d := med(bm) + slope(bt, bm)*(medT(at)-medT(bt)) - med(am)
 			if d > bestDrop {
 				best, bestDrop = j, d
 			}
