@@ -2,6 +2,7 @@ package report
 
 import (
 	"bufio"
+	"fmt"
 	"os"
 	"path/filepath"
 	"runtime"
@@ -80,4 +81,43 @@ func BenchmarkReport1M(b *testing.B) {
 		peak = max(peak, ms.HeapInuse)
 	}
 	b.ReportMetric(float64(peak)/1e6, "heapMB")
+}
+
+// writeTable writes the invented demo run as a CSV of n rows (elapsed
+// seconds, grams, stability, air temperature), read every 16 h/n.
+func writeTable(tb testing.TB, n int) string {
+	tb.Helper()
+	sc := simulate.AppleRings()
+	sc.IntervalS = sc.DurationH * 3600 / float64(n-1)
+	m, err := simulate.NewModel(sc)
+	if err != nil {
+		tb.Fatal(err)
+	}
+	path := filepath.Join(tb.TempDir(), "big.csv")
+	f, _ := os.Create(path)
+	w := bufio.NewWriterSize(f, 1<<20)
+	w.WriteString("elapsed_s,mass_g,stable,air_temp_c\n")
+	m.Run(1, func(s simulate.Sample) bool {
+		st := 0
+		if s.Stable {
+			st = 1
+		}
+		fmt.Fprintf(w, "%.1f,%.2f,%d,%.1f\n", s.ElapsedS, s.MassG, st, s.AirTempC)
+		return true
+	})
+	w.Flush()
+	f.Close()
+	return path
+}
+
+// BenchmarkLoadTable1M: reading a 1,000,000-row CSV into a run (the load
+// stage of `parch report` on a table).
+func BenchmarkLoadTable1M(b *testing.B) {
+	path := writeTable(b, benchN)
+	for b.Loop() {
+		run, err := Load(path, TableOptionsNone)
+		if err != nil || len(run.Series.TimeH) != benchN {
+			b.Fatal(err)
+		}
+	}
 }
