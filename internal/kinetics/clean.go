@@ -208,35 +208,52 @@ func buildTrend(t, m []float64, keep []bool, w float64, breaks []float64) *trend
 	if k := len(blocks); k > 0 {
 		most = max(most, blocks[k-1].n)
 	}
-	buf := make([]float64, 0, most)
-	kept := func(b block, v []float64) []float64 {
+	buf := make([]float64, 0, min(most, medianSample))
+	// The values f(i) of at most medianSample evenly spaced kept readings of
+	// a block (thin's choice, taken without gathering the rest): a dense
+	// log's block holds thousands, and its median moves by less than the
+	// balance's noise for it.
+	sample := func(b block, f func(i int) float64) []float64 {
 		buf = buf[:0]
-		for i := b.lo; i < b.hi; i++ {
-			if keep[i] {
-				buf = append(buf, v[i])
+		step := max(float64(b.n)/medianSample, 1)
+		q, next := 0, 0
+		for i := b.lo; i < b.hi && len(buf) < medianSample; i++ {
+			if !keep[i] {
+				continue
 			}
+			if q == next {
+				buf = append(buf, f(i))
+				next = int(float64(len(buf)) * step)
+			}
+			q++
 		}
 		return buf
-	}
-	// Medians of at most medianSample evenly spaced readings of a block:
-	// a dense log's block holds thousands, and the knot moves by less than
-	// the balance's noise for it.
-	keptSample := func(b block, v []float64) []float64 {
-		return thin(kept(b, v), medianSample)
 	}
 	// First pass: plain medians, for the local slopes. The times of a
 	// block are in order: their median is the middle one (or two).
 	mt := make([]float64, len(blocks))
 	mv := make([]float64, len(blocks))
+	mass := func(i int) float64 { return m[i] }
 	for b, bl := range blocks {
-		bt := kept(bl, t)
-		h := len(bt) / 2
-		if len(bt)%2 == 1 {
-			mt[b] = bt[h]
-		} else {
-			mt[b] = (bt[h-1] + bt[h]) / 2
+		h, q := bl.n/2, 0
+		for i := bl.lo; i < bl.hi; i++ {
+			if !keep[i] {
+				continue
+			}
+			switch {
+			case q == h-1 && bl.n%2 == 0:
+				mt[b] = t[i]
+			case q == h && bl.n%2 == 0:
+				mt[b] = (mt[b] + t[i]) / 2
+			case q == h:
+				mt[b] = t[i]
+			}
+			if q == h {
+				break
+			}
+			q++
 		}
-		mv[b] = medianInPlace(keptSample(bl, m))
+		mv[b] = medianInPlace(sample(bl, mass))
 	}
 	tr.kt = make([]float64, 0, len(blocks))
 	tr.km = make([]float64, 0, len(blocks))
@@ -260,14 +277,8 @@ func buildTrend(t, m []float64, keep []bool, w float64, breaks []float64) *trend
 			}
 		}
 		tc /= float64(bl.n)
-		buf = buf[:0]
-		for i := bl.lo; i < bl.hi; i++ {
-			if keep[i] {
-				buf = append(buf, m[i]-slope*(t[i]-tc))
-			}
-		}
 		tr.kt = append(tr.kt, tc)
-		tr.km = append(tr.km, medianInPlace(thin(buf, medianSample)))
+		tr.km = append(tr.km, medianInPlace(sample(bl, func(i int) float64 { return m[i] - slope*(t[i]-tc) })))
 		tr.seg = append(tr.seg, bl.seg)
 	}
 	return tr
@@ -395,39 +406,46 @@ func FindSteps(t, m []float64, keep []bool, blockH, limit float64, known []float
 			return (v[h-1] + v[h]) / 2
 		}
 	}
-	// The Theil–Sen-like slope between the medians of the two halves.
-	slope := func(t, m []float64) float64 {
-		h := len(t) / 2
-		if h < 1 {
-			return 0
-		}
-		dt := medT(t[len(t)-h:]) - medT(t[:h])
-		if dt == 0 {
-			return 0
-		}
-		return (med(m[len(m)-h:]) - med(m[:h])) / dt
-	}
 	k := 0
 	for k < n && tt[k]-tt[0] < blockH {
 		k++
 	}
 	k = max(k, 5)
+	// The masses' medians over the windows of k readings and of half of
+	// that, each worked out once: a window after one reading is the window
+	// before another.
+	medOf := func(cache []float64, w int) func(x int) float64 {
+		for i := range cache {
+			cache[i] = math.NaN()
+		}
+		return func(x int) float64 {
+			if math.IsNaN(cache[x]) {
+				cache[x] = med(mm[x : x+w])
+			}
+			return cache[x]
+		}
+	}
+	h := k / 2
+	medK, medH := medOf(make([]float64, n-k+1), k), medOf(make([]float64, n-h+1), h)
+	// dropAt is the drop at i: the median after it below what the k
+	// before, carried on at their own rate, predict.
+	dropAt := func(i int) float64 {
+		bt, at := tt[i-k:i], tt[i:i+k]
+		sl := 0.0
+		if dt := medT(bt[k-h:]) - medT(bt[:h]); h >= 1 && dt != 0 {
+			sl = (medH(i-h) - medH(i-k)) / dt
+		}
+		return medK(i-k) + sl*(medT(at)-medT(bt)) - medK(i)
+	}
 	for i := k; i+k <= n; i++ {
-		// before: [i−k, i), after: [i, i+k)
-		bt, bm := tt[i-k:i], mm[i-k:i]
-		at, am := tt[i:i+k], mm[i:i+k]
-		pred := med(bm) + slope(bt, bm)*(medT(at)-medT(bt))
-		drop := pred - med(am)
+		drop := dropAt(i)
 		if drop <= limit {
 			continue
 		}
 		// Refine to the local largest drop, then skip past it.
 		best, bestDrop := i, drop
 		for j := i + 1; j < min(i+k, n-k+1); j++ {
-			bt, bm := tt[j-k:j], mm[j-k:j]
-			at, am := tt[j:j+k], mm[j:j+k]
-			d := med(bm) + slope(bt, bm)*(medT(at)-medT(bt)) - med(am)
-			if d > bestDrop {
+			if d := dropAt(j); d > bestDrop {
 				best, bestDrop = j, d
 			}
 		}

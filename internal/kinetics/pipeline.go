@@ -225,9 +225,9 @@ func clean(s Series, setup Setup) cleaned {
 	var first []float64 // the first 5000, for the resolution
 	// NoiseSD's second differences: every step-th triple of kept readings.
 	step := max(1, (nk-2+noiseSample-1)/noiseSample)
-	var d2 []float64
+	d2 := make([]float64, 0, min(nk, noiseSample+1))
 	// thin's evenly spaced masses, for the median mass.
-	var mm []float64
+	mm := make([]float64, 0, min(nk, noiseSample+1))
 	thinStep := float64(nk) / float64(noiseSample)
 	nextThin := 0
 	q := 0 // index among the kept readings
