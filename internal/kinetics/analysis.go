@@ -75,9 +75,9 @@ type moistureOf struct {
 	t, net []float64
 	rate   func(int) float64
 	reject []uint8
-	solids       *solids // nil: no moisture figures
-	x0, xe       float64
-	area         float64
+	solids *solids // nil: no moisture figures
+	x0, xe float64
+	area   float64
 }
 
 func (c *moistureOf) x(i int) float64 {

@@ -270,4 +270,3 @@ func loadRowByRow(path string, lr *textline.Reader, opt ingest.TableOptions) (*R
 	}
 	return run, nil
 }
-
