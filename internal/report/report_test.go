@@ -14,16 +14,22 @@ import (
 	"parch/internal/simulate"
 )
 
-// writeLog writes a session log of n readings of the invented demo run,
-// read every 16 h/n.
-func writeLog(tb testing.TB, n int) string {
-	tb.Helper()
+// demoModel is the invented demo run read n times over its 16 h.
+func demoModel(tb testing.TB, n int) *simulate.Model {
 	sc := simulate.AppleRings()
 	sc.IntervalS = sc.DurationH * 3600 / float64(n-1)
 	m, err := simulate.NewModel(sc)
 	if err != nil {
 		tb.Fatal(err)
 	}
+	return m
+}
+
+// writeLog writes a session log of n readings of the invented demo run,
+// read every 16 h/n.
+func writeLog(tb testing.TB, n int) string {
+	tb.Helper()
+	m := demoModel(tb, n)
 	path := filepath.Join(tb.TempDir(), "big.jsonl")
 	f, _ := os.Create(path)
 	w := bufio.NewWriterSize(f, 1<<20)
@@ -87,12 +93,7 @@ func BenchmarkReport1M(b *testing.B) {
 // seconds, grams, stability, air temperature), read every 16 h/n.
 func writeTable(tb testing.TB, n int) string {
 	tb.Helper()
-	sc := simulate.AppleRings()
-	sc.IntervalS = sc.DurationH * 3600 / float64(n-1)
-	m, err := simulate.NewModel(sc)
-	if err != nil {
-		tb.Fatal(err)
-	}
+	m := demoModel(tb, n)
 	path := filepath.Join(tb.TempDir(), "big.csv")
 	f, _ := os.Create(path)
 	w := bufio.NewWriterSize(f, 1<<20)

@@ -50,16 +50,7 @@ func TestParallelLoadIsSequentialLoad(t *testing.T) {
 	if err := os.WriteFile(path, []byte(b.String()), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	load := func(rows int64, batch int) string {
-		oldRows, oldBatch := parallelRows, batchRows
-		parallelRows, batchRows = rows, batch
-		defer func() { parallelRows, batchRows = oldRows, oldBatch }()
-		run, err := Load(path, TableOptionsNone)
-		if err != nil {
-			t.Fatal(err)
-		}
-		return fmt.Sprintf("%v|%v|%v|%v|%v|%v|%q", run.Start, run.Series.TimeH, run.Series.Value, run.Series.Stable, run.TimesMs, run.Channels, run.Warnings)
-	}
+	load := func(rows int64, batch int) string { return loadWith(path, rows, batch) }
 	want := rowByRow(t, path)
 	if !strings.Contains(want, "line 19 skipped") || !strings.Contains(want, "NUL") || !strings.Contains(want, "lines skipped in all") {
 		t.Fatalf("the row-by-row load does not name the lines not read:\n%s", want[strings.LastIndex(want, "|"):])
@@ -87,21 +78,29 @@ func FuzzParallelLoad(f *testing.F) {
 		if err := os.WriteFile(path, data, 0o644); err != nil {
 			t.Fatal(err)
 		}
-		load := func(rows int64, batch int) string {
-			oldRows, oldBatch := parallelRows, batchRows
-			parallelRows, batchRows = rows, batch
-			defer func() { parallelRows, batchRows = oldRows, oldBatch }()
-			run, err := Load(path, TableOptionsNone)
-			if err != nil {
-				return "error: " + err.Error()
-			}
-			return fmt.Sprintf("%v|%v|%v|%v|%v|%v|%q", run.Start, run.Series.TimeH, run.Series.Value, run.Series.Stable, run.TimesMs, run.Channels, run.Warnings)
-		}
+		load := func(rows int64, batch int) string { return loadWith(path, rows, batch) }
 		want := rowByRow(t, path)
 		if a, b := load(1<<40, 1<<20), load(0, 2); a != want || b != want {
 			t.Errorf("row by row:\n%s\none batch:\n%s\nin batches:\n%s", want, a, b)
 		}
 	})
+}
+
+// loadWith loads path with Load, decoding on every core from rows lines
+// in batches of batch rows, formatted as the tests compare.
+func loadWith(path string, rows int64, batch int) string {
+	oldRows, oldBatch := parallelRows, batchRows
+	parallelRows, batchRows = rows, batch
+	defer func() { parallelRows, batchRows = oldRows, oldBatch }()
+	run, err := Load(path, TableOptionsNone)
+	if err != nil {
+		return "error: " + err.Error()
+	}
+	return formatRun(run)
+}
+
+func formatRun(run *Run) string {
+	return fmt.Sprintf("%v|%v|%v|%v|%v|%v|%q", run.Start, run.Series.TimeH, run.Series.Value, run.Series.Stable, run.TimesMs, run.Channels, run.Warnings)
 }
 
 // rowByRow loads a table with loadRowByRow, formatted as the tests compare.
@@ -119,7 +118,7 @@ func rowByRow(t testing.TB, path string) string {
 	if err != nil {
 		return "error: " + err.Error()
 	}
-	return fmt.Sprintf("%v|%v|%v|%v|%v|%v|%q", run.Start, run.Series.TimeH, run.Series.Value, run.Series.Stable, run.TimesMs, run.Channels, run.Warnings)
+	return formatRun(run)
 }
 
 // loadRowByRow is the table loader as it was before batches (parch
