@@ -425,10 +425,13 @@ func (m *Model) rateChart(w, h int) []string {
 	if math.IsNaN(m.res.DryMassG) {
 		return append(lines, m.styles.Dim.Render("needs the initial moisture or the dry mass (u: setup)"))
 	}
+	// The moisture range of the readings columns averages (all of a short
+	// run, evenly spaced ones of a long one).
 	xlo, xhi := math.Inf(1), math.Inf(-1)
-	for i := 0; i < n; i++ {
-		if m.kept(i) && !math.IsNaN(pts.X(i)) {
-			xlo, xhi = math.Min(xlo, pts.X(i)), math.Max(xhi, pts.X(i))
+	step := max(1, n/chartSample)
+	for i := (n - 1) % step; i < n; i += step {
+		if x := pts.X(i); m.kept(i) && !math.IsNaN(x) {
+			xlo, xhi = math.Min(xlo, x), math.Max(xhi, x)
 		}
 	}
 	if !(xhi > xlo) {
