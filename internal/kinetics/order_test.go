@@ -80,6 +80,34 @@ func TestAnalyzeOutOfOrderAndCut(t *testing.T) {
 	if r.Points.Len() != len(s.TimeH) {
 		t.Errorf("points for %d readings, want %d", r.Points.Len(), len(s.TimeH))
 	}
+	// Each reading's figures, worked out when asked, are those of the
+	// readings in order analysed alone, put back in their rows; the
+	// readings left out have none.
+	pick, _ := inOrder(s.TimeH, math.NaN())
+	sub := Series{TimeH: gather(s.TimeH, pick), Value: gather(s.Value, pick)}
+	alone, err := Analyze(sub, setup, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	picked := map[int]int{}
+	for j, i := range pick {
+		picked[i] = j
+	}
+	same := func(a, b float64) bool { return a == b || math.IsNaN(a) && math.IsNaN(b) }
+	for i := range s.TimeH {
+		j, ok := picked[i]
+		p, q := &r.Points, &alone.Points
+		if !ok {
+			if !math.IsNaN(p.SmoothG(i)) || !math.IsNaN(p.RateG(i)) || !math.IsNaN(p.X(i)) || !math.IsNaN(p.MR(i)) {
+				t.Errorf("reading %d left out, yet smoothed %v, rate %v, X %v", i, p.SmoothG(i), p.RateG(i), p.X(i))
+			}
+			continue
+		}
+		if !same(p.SmoothG(i), q.SmoothG(j)) || !same(p.RateG(i), q.RateG(j)) || !same(p.X(i), q.X(j)) ||
+			!same(p.MR(i), q.MR(j)) || !same(p.RateDB(i), q.RateDB(j)) || !same(p.WBPct(i), q.WBPct(j)) {
+			t.Fatalf("reading %d (row %d in order): smoothed %v %v, rate %v %v, X %v %v", i, j, p.SmoothG(i), q.SmoothG(j), p.RateG(i), q.RateG(j), p.X(i), q.X(j))
+		}
+	}
 	c, err := Analyze(s, setup, Options{UntilH: 3})
 	if err != nil {
 		t.Fatal(err)
