@@ -73,6 +73,16 @@ func FuzzAnalyze(f *testing.F) {
 		if p := r.Projection; !math.IsNaN(p.TargetH) && (p.LowH > p.TargetH || p.HighH < p.TargetH) {
 			t.Fatalf("range %v to %v does not hold the estimate %v", p.LowH, p.HighH, p.TargetH)
 		}
+		// Every reading's figures can be asked for (they are worked out
+		// then): none panics, and a reading left out has none.
+		for i := range s.TimeH {
+			p := &r.Points
+			sm := p.SmoothG(i)
+			_, _, _, _, _ = p.X(i), p.RateG(i), p.MR(i), p.RateDB(i), p.Flux(i)
+			if i < len(p.Reject) && p.Reject[i] != KeepOK && !math.IsNaN(sm) {
+				t.Fatalf("reading %d left out (%s) has a smoothed mass %v", i, RejectReason(p.Reject[i]), sm)
+			}
+		}
 		if len(r.Points.Reject) != len(s.TimeH) {
 			t.Fatalf("%d verdicts for %d readings", len(r.Points.Reject), len(s.TimeH))
 		}
