@@ -28,7 +28,7 @@ func runWatch(args []string, stdout, stderr io.Writer) error {
 	if err != nil {
 		return err
 	}
-	return watch(w, stdout)
+	return watch(w, stdout, stderr)
 }
 
 func runDemo(args []string, stdout, stderr io.Writer) error {
@@ -42,7 +42,7 @@ func runDemo(args []string, stdout, stderr io.Writer) error {
 	w.src.demo = true
 	// The demo's invented apple rings: what an operator would have entered.
 	w.setup.defaults = map[string]float64{report.KeyInitialMoistureWB: 86.5, report.KeyTargetWB: 18, report.KeyThickness: 6, report.KeyFaces: 2, report.KeyEquilibriumDB: 0.05}
-	return watch(w, stdout)
+	return watch(w, stdout, stderr)
 }
 
 // watchArgs are the dashboard's flags.
@@ -74,7 +74,7 @@ func watchFlags(name, usage string, airMin, airMax float64, args []string, stder
 
 // watch runs the dashboard: recording a source into the session log, or
 // attached to a log another parch is recording.
-func watch(wa *watchArgs, stdout io.Writer) error {
+func watch(wa *watchArgs, stdout, stderr io.Writer) error {
 	src, sf := &wa.src, &wa.setup
 	now := time.Now()
 	hasSource := src.port != "" || src.follow != "" || src.demo
@@ -93,6 +93,10 @@ func watch(wa *watchArgs, stdout io.Writer) error {
 	// the dashboard below.
 	var attached *session.Log
 	if src.session != "" {
+		// A long log takes a moment to read before the screen opens: say so.
+		if st, err := os.Stat(src.session); err == nil && st.Size() > 16<<20 {
+			fmt.Fprintf(stderr, "reading %s (%d MB)…\n", src.session, st.Size()>>20)
+		}
 		if l, err := session.Load(src.session); err == nil {
 			attached = l
 			for k, v := range l.SetupParams() {
