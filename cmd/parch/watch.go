@@ -232,7 +232,12 @@ func watch(wa *watchArgs, stdout, stderr io.Writer) error {
 		}
 		mb := recorder.NewMailbox()
 		if earlier != nil {
-			mb.Put(replay(earlier))
+			// The dashboard takes the earlier readings and notes from the
+			// log's columns (a million events would take seconds); this
+			// recording's own source states start afresh.
+			backlog := *earlier
+			backlog.Sources = nil
+			opt.Backlog = &backlog
 		}
 		rec := &recorder.Recorder{Log: w, Stall: src.stall, OnBatch: mb.Put}
 		recDone := make(chan error, 1)
@@ -336,30 +341,6 @@ func logEnd(path string, end int64) (*ingest.Position, bool) {
 		return nil, false
 	}
 	return &ingest.Position{File: path, Offset: end, Tail: tail}, true
-}
-
-// replay turns a log read back into events for the dashboard.
-func replay(l *session.Log) []ingest.Event {
-	r := &l.Readings
-	out := make([]ingest.Event, 0, r.Len()+len(l.Notes))
-	for i := 0; i < r.Len(); i++ {
-		st := ingest.StabilityOf(r.Stable[i])
-		var ch map[string]float64
-		for name, col := range r.Channels {
-			if v := col[i]; !math.IsNaN(float64(v)) {
-				if ch == nil {
-					ch = map[string]float64{}
-				}
-				ch[name] = float64(v)
-			}
-		}
-		out = append(out, ingest.Event{T: time.UnixMilli(r.TimeMs[i]).UTC(), Kind: ingest.KindReading, MassG: r.MassG[i], Stable: st, Channels: ch})
-	}
-	for i := range l.Notes {
-		n := l.Notes[i]
-		out = append(out, ingest.Event{T: n.T, Kind: ingest.KindNote, Note: &n})
-	}
-	return out
 }
 
 func anyMap(m map[string]float64) map[string]any {

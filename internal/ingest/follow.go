@@ -8,6 +8,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"strings"
 	"time"
 
 	"github.com/fsnotify/fsnotify"
@@ -238,12 +239,14 @@ func (st *followState) readNew(send func([]Event) bool, now time.Time, first boo
 	buf := make([]byte, 64<<10)
 	var lines []string
 	var headerErr error
+	advanced := false
 	for {
 		if st.ctx != nil && st.ctx.Err() != nil {
 			return nil // stopping: a long catch-up does not hold up a SIGTERM
 		}
 		n, err := st.file.ReadAt(buf, st.offset)
 		if n > 0 {
+			advanced = true
 			st.offset += int64(n)
 			st.keepTail(buf[:n])
 			st.sp.Feed(buf[:n], func(line []byte, cut bool) {
@@ -273,10 +276,45 @@ func (st *followState) readNew(send func([]Event) bool, now time.Time, first boo
 	if headerErr != nil {
 		return fmt.Errorf("%s: %w", st.f.Path, headerErr)
 	}
-	if len(lines) > 0 && st.emit(lines, send) {
+	if len(lines) > 0 && !st.emit(lines, send) {
+		return nil
+	}
+	// Where the next line starts, whenever something was read: the last
+	// batch of a catch-up may have gone out full inside the loop.
+	if advanced {
 		send([]Event{st.position(now)})
 	}
 	return nil
+}
+
+// lastElapsed is the elapsed time of the last whole row of the file that
+// has one, read from the file's end.
+func (st *followState) lastElapsed(td *tableDecoder) (time.Duration, bool) {
+	info, err := st.file.Stat()
+	if err != nil {
+		return 0, false
+	}
+	size := info.Size()
+	n := min(size, 64<<10)
+	buf := make([]byte, n)
+	if k, _ := st.file.ReadAt(buf, size-n); int64(k) != n {
+		return 0, false
+	}
+	end := bytes.LastIndexByte(buf, '\n') // a torn last line is not a row yet
+	if end < 0 {
+		return 0, false
+	}
+	rows := bytes.Split(buf[:end], []byte{'\n'})
+	for i := len(rows) - 1; i >= 0; i-- {
+		if i == 0 && n < size {
+			break // cut at the start of the tail
+		}
+		row, err := td.tb.Decode(strings.TrimRight(string(rows[i]), "\r"))
+		if err == nil && row.Time.IsZero() {
+			return row.Elapsed, true
+		}
+	}
+	return 0, false
 }
 
 // position is where the next complete line starts, with the bytes before.
@@ -337,6 +375,14 @@ func (st *followState) emit(lines []string, send func([]Event) bool) bool {
 	mtime := st.f.Now()
 	if info, err := st.file.Stat(); err == nil {
 		mtime = info.ModTime()
+	}
+	if td, ok := st.dec.(*tableDecoder); ok && td.base.IsZero() {
+		// Elapsed times: the file's newest row when following starts is
+		// taken as written at its modification time. That row is the
+		// file's last, not this batch's (a long file comes in batches).
+		if el, ok := st.lastElapsed(td); ok {
+			td.base = mtime.Add(-el)
+		}
 	}
 	evs := st.dec.decode(lines, mtime)
 	if !st.f.After.IsZero() {

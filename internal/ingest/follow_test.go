@@ -2,6 +2,7 @@ package ingest
 
 import (
 	"context"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -239,6 +240,50 @@ func TestFollowElapsedBase(t *testing.T) {
 	got := collect(t, out, 2, "rows")
 	if !got[1].T.Equal(mt) || !got[0].T.Equal(mt.Add(-30*time.Minute)) {
 		t.Fatalf("times %v %v", got[0].T, got[1].T)
+	}
+}
+
+// A long file comes in batches: its newest row is still the one taken as
+// written at the modification time (the first batch's last row was, and
+// the rows after it landed up to half an hour in the future); and the
+// position after the catch-up is sent even when the last batch went out
+// full (it was not, and a restart then read the file from its start).
+func TestFollowLongFileBaseAndPosition(t *testing.T) {
+	for _, rows := range []int{followBatch, followBatch + 1, 2*followBatch + 7} {
+		path := filepath.Join(t.TempDir(), "log.csv")
+		var b strings.Builder
+		b.WriteString("elapsed_s,mass_g\n")
+		for i := 0; i < rows; i++ {
+			fmt.Fprintf(&b, "%d,%.2f\n", 2*i, 200-0.01*float64(i))
+		}
+		appendTo(t, path, b.String())
+		mt := time.Date(2026, 12, 2, 9, 0, 0, 0, time.UTC)
+		os.Chtimes(path, mt, mt)
+		out, _ := startFollow(t, &Follow{Path: path, Poll: 50 * time.Millisecond})
+		var last Event
+		var pos *Position
+		deadline := time.After(10 * time.Second)
+		for n := 0; n < rows || pos == nil; {
+			select {
+			case batch := <-out:
+				for _, e := range batch {
+					switch e.Kind {
+					case KindReading:
+						last, n = e, n+1
+					case KindPosition:
+						pos = e.Pos
+					}
+				}
+			case <-deadline:
+				t.Fatalf("%d rows: %d readings, position %v", rows, n, pos)
+			}
+		}
+		if !last.T.Equal(mt) {
+			t.Errorf("%d rows: the newest row at %v, want the file's time %v", rows, last.T, mt)
+		}
+		if info, _ := os.Stat(path); pos.Offset != info.Size() || !pos.Base.Equal(mt.Add(-time.Duration(2*(rows-1))*time.Second)) {
+			t.Errorf("%d rows: position %d (file %d bytes), base %v", rows, pos.Offset, info.Size(), pos.Base)
+		}
 	}
 }
 
