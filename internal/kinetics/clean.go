@@ -90,35 +90,10 @@ type trend struct {
 	breaks []float64 // segment boundaries (times)
 }
 
-func (tr *trend) at(t float64) float64 {
-	s := sort.SearchFloat64s(tr.breaks, t)
-	if s < len(tr.breaks) && tr.breaks[s] == t {
-		s++ // a boundary belongs to the segment after it
-	}
-	// knots of segment s
-	lo := sort.Search(len(tr.seg), func(i int) bool { return tr.seg[i] >= s })
-	hi := sort.Search(len(tr.seg), func(i int) bool { return tr.seg[i] > s })
-	if lo >= hi {
-		return math.NaN()
-	}
-	kt, km := tr.kt[lo:hi], tr.km[lo:hi]
-	if len(kt) == 1 {
-		return km[0]
-	}
-	j := sort.SearchFloat64s(kt, t)
-	switch {
-	case j <= 0:
-		j = 1
-	case j >= len(kt):
-		j = len(kt) - 1
-	}
-	f := (t - kt[j-1]) / (kt[j] - kt[j-1])
-	return km[j-1] + f*(km[j]-km[j-1])
-}
-
 // cursor evaluates a trend at times that do not decrease, in constant time
 // each: it walks the segments and knots forward instead of searching them.
-// It gives what trend.at gives.
+// Within a segment (the breaks at or before t) it interpolates linearly
+// between knots, and holds the end knots' line beyond them.
 type cursor struct {
 	tr        *trend
 	s         int // segment: the number of breaks at or before t

@@ -219,7 +219,7 @@ func (l *Live) estimate(p *LivePoint, tH, net float64) {
 	}
 
 	// Rate: a one-sided quadratic over the recent window, sized as in
-	// SmoothRate from the noise and the current rate.
+	// fitSegment from the noise and the current rate.
 	seg := min(l.n-l.seg, liveWindow) // readings since the last step
 	if seg >= 5 {
 		tFirst, _ := l.at(seg - 1)

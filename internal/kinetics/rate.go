@@ -105,22 +105,14 @@ func RateWindow(rate, sd, dt, minH, maxH float64) float64 {
 	return math.Min(math.Max(h, minH), maxH)
 }
 
-// SmoothRate returns the smoothed mass and the drying rate −dm/dt (g/h) at
-// each kept point, from a local quadratic in time over an adaptive window
-// (RateWindow), one-sided where the data end so the newest value does not
-// lag. Rejected points get NaN. Dense data (more than maxFitBins readings)
-// are first averaged into time bins, fitted with the bins' counts as
-// weights, and the fit is carried to each reading along its local slope:
-// the windows then hold tens of bins, not thousands of readings.
-func SmoothRate(t, m []float64, keep []bool, sd float64) (smooth, rate []float64) {
-	n := len(t)
-	sm := &smoothing{t: t, keep: keep, segs: []segFit{fitSegment(t, m, keep, 0, n, sd)}}
-	smooth, rate = nanSlice(n), nanSlice(n)
-	sm.each(func(i int, s, r float64) bool { smooth[i], rate[i] = s, r; return true })
-	return
-}
-
-// fitSegment is SmoothRate's fit of the readings [lo, hi), in time order.
+// fitSegment fits the readings [lo, hi) (in time order) for the smoothed
+// mass and the drying rate −dm/dt (g/h) at each kept reading: a local
+// quadratic in time over an adaptive window (RateWindow), one-sided where
+// the data end so the newest value does not lag. Dense data (more than
+// maxFitBins readings) are first averaged into time bins, fitted with the
+// bins' counts as weights, and the fits are carried to the readings between
+// bin centres (smoothing.at): the windows then hold tens of bins, not
+// thousands of readings. Fewer than three kept readings: no fit.
 func fitSegment(t, m []float64, keep []bool, lo, hi int, sd float64) segFit {
 	seg := segFit{lo: lo, hi: hi}
 	k, first, last := 0, -1, -1
@@ -192,7 +184,7 @@ func fitSegment(t, m []float64, keep []bool, lo, hi int, sd float64) segFit {
 // maxFitBins bounds the points the smoothing fits work on.
 const maxFitBins = 4000
 
-// smoothPoints is SmoothRate on points in time order, with optional weights.
+// smoothPoints is fitSegment's fit of points in time order, with optional weights.
 func smoothPoints(t, m, w []float64, sd float64) (smooth, rate []float64) {
 	k := len(t)
 	smooth, rate = nanSlice(k), nanSlice(k)
