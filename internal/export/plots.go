@@ -66,33 +66,38 @@ func Plots(dir string, b *Bundle) error {
 	return modelPlot(dir, b)
 }
 
-// series gathers kept readings as (x, y), binned to at most maxPlotPoints.
+// series gathers kept readings as (x, y), averaged in runs of consecutive
+// points to at most maxPlotPoints. The points are counted first and the
+// runs averaged as they come: a long run's points are never gathered whole.
 func series(b *Bundle, x, y func(i int) float64) plotter.XYs {
 	p := &b.Res.Points
-	var pts plotter.XYs
-	for i := range p.Reject {
-		if p.Reject[i] != kinetics.KeepOK {
-			continue
+	each := func(fn func(xv, yv float64)) {
+		for i := range p.Reject {
+			if p.Reject[i] != kinetics.KeepOK {
+				continue
+			}
+			xv, yv := x(i), y(i)
+			if math.IsNaN(xv) || math.IsNaN(yv) || math.IsInf(xv, 0) || math.IsInf(yv, 0) {
+				continue
+			}
+			fn(xv, yv)
 		}
-		xv, yv := x(i), y(i)
-		if math.IsNaN(xv) || math.IsNaN(yv) || math.IsInf(xv, 0) || math.IsInf(yv, 0) {
-			continue
-		}
-		pts = append(pts, plotter.XY{X: xv, Y: yv})
 	}
-	if len(pts) <= maxPlotPoints {
-		return pts
-	}
-	per := (len(pts) + maxPlotPoints - 1) / maxPlotPoints
-	var out plotter.XYs
-	for i := 0; i < len(pts); i += per {
-		j := min(i+per, len(pts))
-		var sx, sy float64
-		for _, q := range pts[i:j] {
-			sx += q.X
-			sy += q.Y
+	n := 0
+	each(func(float64, float64) { n++ })
+	per := max(1, (n+maxPlotPoints-1)/maxPlotPoints)
+	out := make(plotter.XYs, 0, (n+per-1)/per)
+	var sx, sy float64
+	k := 0
+	each(func(xv, yv float64) {
+		sx, sy, k = sx+xv, sy+yv, k+1
+		if k == per {
+			out = append(out, plotter.XY{X: sx / float64(k), Y: sy / float64(k)})
+			sx, sy, k = 0, 0, 0
 		}
-		out = append(out, plotter.XY{X: sx / float64(j-i), Y: sy / float64(j-i)})
+	})
+	if k > 0 {
+		out = append(out, plotter.XY{X: sx / float64(k), Y: sy / float64(k)})
 	}
 	return out
 }
