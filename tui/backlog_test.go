@@ -157,4 +157,18 @@ func TestAnalysisPace(t *testing.T) {
 			t.Errorf("%v after an analysis that took 1 s: analyse again %v, want %v", c.after, got, c.want)
 		}
 	}
+	// When the readings pause, the figures catch up after ten analyses'
+	// length of quiet (the screen then agrees with parch report), not
+	// the full share.
+	m.analysing, m.lastRun = false, now // the analysis started above is done
+	more(start.Add(2 * time.Hour))
+	for _, c := range []struct {
+		after time.Duration
+		want  bool
+	}{{9 * time.Second, false}, {11 * time.Second, true}} {
+		now = m.lastRun.Add(c.after)
+		if got := m.maybeAnalyze() != nil; got != c.want {
+			t.Errorf("%v of quiet after an analysis that took 1 s: analyse again %v, want %v", c.after, got, c.want)
+		}
+	}
 }

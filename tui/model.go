@@ -278,8 +278,16 @@ func (m *Model) maybeAnalyze() tea.Cmd {
 	}
 	// Wait between analyses, unless the last one saw less than half of
 	// what is here now (a log still loading at start).
+	// Once the readings pause (a file that stopped growing, a balance
+	// between slow readings), the figures catch up sooner: the screen then
+	// says what parch report says of the same readings. The pause must be
+	// ten analyses long, so this too keeps a core under 10 % busy.
+	now := m.opt.Now()
 	wait := max(m.opt.AnalyzeEvery, analyzeShare*m.lastTook)
-	if m.res != nil && 2*m.resN >= len(m.th) && m.opt.Now().Sub(m.lastRun) < wait {
+	if pause := max(m.opt.AnalyzeEvery, 10*m.lastTook); now.Sub(m.seen) >= pause {
+		wait = pause
+	}
+	if m.res != nil && 2*m.resN >= len(m.th) && now.Sub(m.lastRun) < wait {
 		return nil
 	}
 	return m.analysis()
