@@ -7,6 +7,7 @@ import (
 	"os/exec"
 	"path/filepath"
 	"strings"
+	"sync/atomic"
 	"testing"
 	"time"
 
@@ -17,25 +18,11 @@ import (
 // The dashboard in a real terminal: tmux runs `parch demo` at 80x24, keys
 // are typed with send-keys, the screen is read with capture-pane.
 func TestDashboardInTmux(t *testing.T) {
-	if _, err := exec.LookPath("tmux"); err != nil {
-		t.Skip("tmux is not installed (.ci/run installs it)")
-	}
 	dir := t.TempDir()
+	tmux, screenOf := tmuxServer(t)
 	log := filepath.Join(dir, "e2e.jsonl")
-	sock := fmt.Sprintf("parch-test-%d", os.Getpid())
-	tmux := func(args ...string) (string, error) {
-		out, err := exec.Command("tmux", append([]string{"-L", sock}, args...)...).CombinedOutput()
-		return string(out), err
-	}
-	defer tmux("kill-server")
-	cmdline := fmt.Sprintf("cd %s && %s demo --session %s --speed 400; echo PARCH-EXITED $?; sleep 30", dir, binary, log)
-	if out, err := tmux("new-session", "-d", "-x", "80", "-y", "24", "-s", "e2e", cmdline); err != nil {
-		t.Fatalf("tmux: %v %s", err, out)
-	}
-	screen := func() string {
-		out, _ := tmux("capture-pane", "-p", "-t", "e2e")
-		return strings.ReplaceAll(out, "\u00a0", " ") // the screen keeps a number and its unit together
-	}
+	tmux("new-session", "-d", "-x", "80", "-y", "24", "-s", "e2e", fmt.Sprintf("cd %s && %s demo --session %s --speed 400; echo PARCH-EXITED $?; sleep 30", dir, binary, log))
+	screen := func() string { return screenOf("e2e") }
 	waitScreen := func(what string, ok func(string) bool) string {
 		t.Helper()
 		deadline := time.Now().Add(20 * time.Second)
@@ -115,10 +102,8 @@ func TestDashboardInTmux(t *testing.T) {
 // Watching a log that `parch record` writes: notes go into it, and quitting
 // the watcher leaves the recording running.
 func TestWatchAttachedInTmux(t *testing.T) {
-	if _, err := exec.LookPath("tmux"); err != nil {
-		t.Skip("tmux is not installed (.ci/run installs it)")
-	}
 	dir := t.TempDir()
+	tmux, screen := tmuxServer(t)
 	log := filepath.Join(dir, "rec.jsonl")
 	rec := exec.Command(binary, "record", "--demo", "--speed", "100", "--session", log, "--status", "0")
 	if err := rec.Start(); err != nil {
@@ -126,19 +111,13 @@ func TestWatchAttachedInTmux(t *testing.T) {
 	}
 	defer rec.Process.Kill()
 	time.Sleep(time.Second)
-	sock := fmt.Sprintf("parch-test-attach-%d", os.Getpid())
-	tmux := func(args ...string) string {
-		out, _ := exec.Command("tmux", append([]string{"-L", sock}, args...)...).CombinedOutput()
-		return string(out)
-	}
-	defer tmux("kill-server")
 	tmux("new-session", "-d", "-x", "80", "-y", "24", "-s", "w", fmt.Sprintf("%s watch --session %s; echo WATCH-EXITED $?; sleep 30", binary, log))
 	wait := func(what string) {
 		t.Helper()
 		deadline := time.Now().Add(20 * time.Second)
-		for !strings.Contains(tmux("capture-pane", "-p", "-t", "w"), what) {
+		for !strings.Contains(screen("w"), what) {
 			if time.Now().After(deadline) {
-				t.Fatalf("timed out waiting for %q:\n%s", what, tmux("capture-pane", "-p", "-t", "w"))
+				t.Fatalf("timed out waiting for %q:\n%s", what, screen("w"))
 			}
 			time.Sleep(200 * time.Millisecond)
 		}
@@ -174,21 +153,10 @@ func TestWatchAttachedInTmux(t *testing.T) {
 // note shows on both, the second says the recording stopped, and no value
 // is cut at 80x24.
 func TestTwoDashboardsAgreeWithReport(t *testing.T) {
-	if _, err := exec.LookPath("tmux"); err != nil {
-		t.Skip("tmux is not installed (.ci/run installs it)")
-	}
 	dir := t.TempDir()
+	tmux, screen := tmuxServer(t)
 	logger := filepath.Join(dir, "logger.csv")
 	log := filepath.Join(dir, "s.jsonl")
-	sock := fmt.Sprintf("parch-test-two-%d", os.Getpid())
-	tmux := func(args ...string) string {
-		out, _ := exec.Command("tmux", append([]string{"-L", sock}, args...)...).CombinedOutput()
-		return string(out)
-	}
-	defer tmux("kill-server")
-	screen := func(s string) string {
-		return strings.ReplaceAll(tmux("capture-pane", "-p", "-t", s), "\u00a0", " ")
-	}
 	wait := func(s, what string, limit time.Duration) time.Duration {
 		t.Helper()
 		begin := time.Now()
@@ -289,25 +257,17 @@ func TestTwoDashboardsAgreeWithReport(t *testing.T) {
 // real terminal: `parch demo --reference A --reference B` draws them dimmed
 // and names them; `parch report` lists both.
 func TestReferenceRunsInTmux(t *testing.T) {
-	if _, err := exec.LookPath("tmux"); err != nil {
-		t.Skip("tmux is not installed (.ci/run installs it)")
-	}
 	dir := t.TempDir()
+	tmux, screen := tmuxServer(t)
 	for _, name := range []string{"earlier.jsonl", "older.jsonl"} {
 		if _, stderr, code := parch(t, dir, "record", "--demo", "--speed", "0", "--session", name, "--status", "0", "--initial-moisture", "86.5"); code != 0 {
 			t.Fatal(stderr)
 		}
 	}
-	sock := fmt.Sprintf("parch-test-ref-%d", os.Getpid())
-	tmux := func(args ...string) string {
-		out, _ := exec.Command("tmux", append([]string{"-L", sock}, args...)...).CombinedOutput()
-		return string(out)
-	}
-	defer tmux("kill-server")
 	tmux("new-session", "-d", "-x", "120", "-y", "40", "-s", "r", fmt.Sprintf("cd %s && %s demo --session now.jsonl --speed 400 --reference earlier.jsonl --reference older.jsonl; sleep 30", dir, binary))
 	deadline := time.Now().Add(30 * time.Second)
 	for {
-		s := tmux("capture-pane", "-p", "-t", "r")
+		s := screen("r")
 		if strings.Count(s, "∘") >= 2 && strings.Contains(s, "reference earlier.jsonl") && strings.Contains(s, "reference older.jsonl") {
 			break
 		}
@@ -322,4 +282,35 @@ func TestReferenceRunsInTmux(t *testing.T) {
 	if code != 0 || !strings.Contains(out, `"more_references"`) || !strings.Contains(out, "older.jsonl") {
 		t.Errorf("report with two references: %d %s\n%s", code, stderr, out)
 	}
+}
+
+// tmuxTests numbers the tmux servers of this test binary.
+var tmuxTests atomic.Int64
+
+// tmuxServer skips the test when tmux is missing, and otherwise gives it a
+// tmux server of its own (a socket no other test, nor a repeat of this one
+// under -count, shares: a server being killed at the end of one must not
+// be the one the next starts in), killed when the test ends (ask for it
+// after t.TempDir: cleanups run last first, so the programs in it stop
+// before their folder is removed); and the screen
+// of a session, the non-breaking spaces that keep a number and its unit
+// together read as spaces.
+func tmuxServer(t *testing.T) (tmux func(args ...string) string, screen func(session string) string) {
+	t.Helper()
+	if _, err := exec.LookPath("tmux"); err != nil {
+		t.Skip("tmux is not installed (.ci/run installs it)")
+	}
+	sock := fmt.Sprintf("parch-test-%d-%d", os.Getpid(), tmuxTests.Add(1))
+	tmux = func(args ...string) string {
+		out, err := exec.Command("tmux", append([]string{"-L", sock}, args...)...).CombinedOutput()
+		if err != nil && args[0] == "new-session" {
+			t.Fatalf("tmux %s: %v %s", strings.Join(args, " "), err, out)
+		}
+		return string(out)
+	}
+	t.Cleanup(func() { tmux("kill-server") })
+	screen = func(session string) string {
+		return strings.ReplaceAll(tmux("capture-pane", "-p", "-t", session), "\u00a0", " ")
+	}
+	return tmux, screen
 }
